@@ -1,0 +1,1 @@
+//! The JSON contract: serde types for model specs and every result document.

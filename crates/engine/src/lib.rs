@@ -1,0 +1,1 @@
+//! The regression engine: pure numerics for area-level indicator models (no I/O, no serde).

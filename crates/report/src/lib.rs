@@ -1,0 +1,1 @@
+//! Reports: SVG charts and the budgeting brief built from engine results.

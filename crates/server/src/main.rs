@@ -1,0 +1,3 @@
+//! The wardcast binary: command line and local web server.
+
+fn main() {}

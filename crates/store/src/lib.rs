@@ -1,0 +1,1 @@
+//! The dataset store: import, validate, join, derive and persist tables (polars).
