@@ -1,3 +1,5 @@
-//! The wardcast binary: command line and local web server.
+//! The wardcast binary: hands the arguments to the command line in [`wardcast::cli`].
 
-fn main() {}
+fn main() -> std::process::ExitCode {
+    wardcast::cli::main()
+}

@@ -1,0 +1,1 @@
+//! The selection document: best subsets, cross-validation and nested-model comparisons.

@@ -1,0 +1,30 @@
+//! Model selection and validation: exact best subsets, cross-validation and nested-model
+//! comparisons.
+//!
+//! * [`best_subsets`] finds the best `m` models of every size by SSE, exactly (exhaustive
+//!   enumeration or Furnival–Wilson leaps and bounds on a triangular factor), and refits each
+//!   reported model by pivoted QR, which supplies SSE, R², adjusted R², Mallows' Cp, AIC, SBC and
+//!   PRESS.
+//! * [`cross_validate`] estimates out-of-sample error by repeated, seeded k-fold
+//!   cross-validation, optionally with grouped folds, on the original response scale.
+//! * [`compare`] holds the partial F-test between nested models, the drop-one table and the
+//!   recommendation that names each criterion's favourite model.
+//!
+//! Formulas and sources are listed in docs/METHODS.md.
+
+mod candidates;
+pub mod compare;
+pub mod cv;
+mod fastpath;
+mod qrfit;
+pub mod subsets;
+
+pub use candidates::{CandidateTerm, Candidates};
+pub use compare::{
+    drop_one, partial_f_test, recommend, Criterion, DropOneOptions, DropOneRow, DropOneTable, PartialFTest, Pick, Recommendation,
+};
+pub use cv::{cross_validate, loo_rmse, make_folds, GroupColumn, CvModel, CvOptions, CvResult, FoldAssignment, Spread};
+pub use subsets::{
+    best_subsets, rank_with_ties, AliasedModel, CpReference, SearchCounts, SearchMethod, SearchOptions, SizeBest, SubsetModel,
+    SubsetSearch, EXHAUSTIVE_LIMIT, MAX_CANDIDATES, NOTE_AIC_SCALE, NOTE_OPTIMISTIC_P, TIE_TOLERANCE,
+};

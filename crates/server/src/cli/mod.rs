@@ -1,0 +1,75 @@
+//! The command line: one `clap` definition of every subcommand and the shared model flags.
+//!
+//! Each analysis command (`fit`, `check`, `select`, `brief`) takes the same [`ModelArgs`],
+//! defined once in [`model_args`]. Bad input prints one line on standard error and exits
+//! with code 2; success prints JSON on standard output.
+
+pub mod fit;
+pub mod model_args;
+
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+pub use model_args::ModelArgs;
+
+/// Exit code for refused input.
+pub const EXIT_REFUSED: u8 = 2;
+
+/// wardcast: area-level indicator modelling for prevention budgets, on your own machine.
+#[derive(Debug, Parser)]
+#[command(name = "wardcast", version, about, long_about = None)]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The subcommands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Serve the web app on this machine (loads the bundled Larkmoor demo).
+    Serve(ServeArgs),
+    /// Fit a model and print the fit document as JSON.
+    Fit(ModelArgs),
+}
+
+/// Flags of `wardcast serve`.
+#[derive(Debug, clap::Args)]
+pub struct ServeArgs {
+    /// The port to listen on.
+    #[arg(long, default_value_t = crate::web::DEFAULT_PORT)]
+    pub port: u16,
+    /// Where datasets and saved analyses are kept (default: a wardcast folder in the user's data directory).
+    #[arg(long)]
+    pub data_dir: Option<std::path::PathBuf>,
+    /// Share on the local network: bind the LAN address and require the printed link's token.
+    #[arg(long)]
+    pub share: bool,
+}
+
+/// Parses the arguments and runs the command.
+pub fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let outcome = match cli.command {
+        Command::Serve(args) => serve(args),
+        Command::Fit(args) => fit::run(&args),
+    };
+    match outcome {
+        Ok(code) => code,
+        Err(message) => {
+            eprintln!("wardcast: {message}");
+            ExitCode::from(EXIT_REFUSED)
+        }
+    }
+}
+
+fn serve(args: ServeArgs) -> Result<ExitCode, String> {
+    let runtime = tokio::runtime::Builder::new_multi_thread()
+        .enable_all()
+        .build()
+        .map_err(|e| format!("could not start the runtime: {e}"))?;
+    let config = crate::web::ServeConfig { port: args.port, data_dir: args.data_dir, share: args.share };
+    runtime.block_on(crate::web::serve(config)).map_err(|e| e.to_string())?;
+    Ok(ExitCode::SUCCESS)
+}

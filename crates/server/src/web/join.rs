@@ -1,0 +1,135 @@
+//! Joining a shared session: the link's token is exchanged for a session cookie in two steps.
+//!
+//! `GET /join?t=…` only shows a page with a "continue" button; it changes nothing. The button
+//! POSTs the token from a hidden field, same-origin, and the answer sets an HttpOnly,
+//! SameSite=Strict cookie and redirects (303) to the start page, so the token leaves the
+//! address bar. The extra step is needed because a link opened from mail or chat is a
+//! cross-site navigation, on which a SameSite=Strict cookie would not be sent; the redirect
+//! that follows a same-origin POST is same-site, so the new cookie is.
+
+use askama::Template;
+use axum::body::Body;
+use axum::extract::rejection::QueryRejection;
+use axum::extract::{Query, Request, State};
+use axum::http::{HeaderValue, header};
+use axum::response::Response;
+
+use super::Ctx;
+use super::pages::{Layout, render};
+use crate::error::{Result, ServerError};
+use crate::security::Security;
+
+/// The largest join form accepted; a token field is 66 bytes.
+const JOIN_FORM_LIMIT: usize = 4096;
+
+/// The continue page.
+#[derive(Debug, Template)]
+#[template(path = "join.html")]
+pub struct JoinPage {
+    /// The frame.
+    pub layout: Layout,
+    /// The token to send back (already checked).
+    pub token: String,
+}
+
+#[derive(Debug, serde::Deserialize)]
+pub(crate) struct JoinQuery {
+    t: Option<String>,
+}
+
+fn not_sharing() -> ServerError {
+    ServerError::NotFound("This wardcast is not shared, so there is nothing to join. Open the start page instead.".into())
+}
+
+fn bad_link() -> ServerError {
+    ServerError::Forbidden(
+        "This joining link is not valid. Ask the person running wardcast for the link it printed when it started."
+            .into(),
+    )
+}
+
+fn no_store(mut response: Response) -> Response {
+    response.headers_mut().insert(header::CACHE_CONTROL, HeaderValue::from_static("no-store"));
+    response
+}
+
+/// `GET /join?t=…`: shows the continue page when the token is valid. Changes no state.
+pub async fn show(
+    State(ctx): State<Ctx>,
+    query: std::result::Result<Query<JoinQuery>, QueryRejection>,
+) -> Result<Response> {
+    if !ctx.security.config().is_shared() {
+        return Err(not_sharing());
+    }
+    let token = query.ok().and_then(|Query(q)| q.t).filter(|t| !t.is_empty()).ok_or_else(|| {
+        ServerError::BadRequest("The joining link is incomplete: it has no token. Copy the whole link.".into())
+    })?;
+    if !ctx.security.token_matches(&token) {
+        return Err(bad_link());
+    }
+    let page = JoinPage { layout: Layout::plain("Join a shared session", true), token };
+    Ok(no_store(render(&page)))
+}
+
+/// `POST /join` with form field `t`: exchanges a valid token for a session cookie, then
+/// redirects to the start page.
+pub async fn exchange(State(ctx): State<Ctx>, request: Request<Body>) -> Result<Response> {
+    if !ctx.security.config().is_shared() {
+        return Err(not_sharing());
+    }
+    let is_form = request
+        .headers()
+        .get(header::CONTENT_TYPE)
+        .and_then(|v| v.to_str().ok())
+        .is_some_and(|v| v.trim().to_ascii_lowercase().starts_with("application/x-www-form-urlencoded"));
+    if !is_form {
+        return Err(ServerError::BadRequest("The joining form must be sent as a web form.".into()));
+    }
+    let body = super::read_body(request.into_body(), JOIN_FORM_LIMIT).await?;
+    let token = form_urlencoded_field(&body, "t")
+        .ok_or_else(|| ServerError::BadRequest("The joining form has no token field.".into()))?;
+    if !ctx.security.token_matches(&token) {
+        return Err(bad_link());
+    }
+    let session = ctx.security.open_session()?;
+    let cookie = Security::session_cookie_header(&session)?;
+    let mut response = super::see_other("/");
+    response.headers_mut().insert(header::SET_COOKIE, cookie);
+    Ok(no_store(response))
+}
+
+/// Reads one field of an `application/x-www-form-urlencoded` body.
+fn form_urlencoded_field(body: &[u8], name: &str) -> Option<String> {
+    let pairs: Vec<(String, String)> = form_pairs(body)?;
+    pairs.into_iter().find(|(k, _)| k == name).map(|(_, v)| v)
+}
+
+fn form_pairs(body: &[u8]) -> Option<Vec<(String, String)>> {
+    let text = std::str::from_utf8(body).ok()?;
+    let mut pairs = Vec::new();
+    for part in text.split('&').filter(|p| !p.is_empty()) {
+        let (k, v) = part.split_once('=').unwrap_or((part, ""));
+        pairs.push((percent_decode(k)?, percent_decode(v)?));
+    }
+    Some(pairs)
+}
+
+/// Decodes `+` and `%XX` escapes; `None` for malformed escapes or invalid UTF-8.
+fn percent_decode(text: &str) -> Option<String> {
+    let bytes = text.as_bytes();
+    let mut out = Vec::with_capacity(bytes.len());
+    let mut i = 0;
+    while i < bytes.len() {
+        match bytes[i] {
+            b'+' => out.push(b' '),
+            b'%' => {
+                let hex = text.get(i + 1..i + 3)?;
+                out.push(u8::from_str_radix(hex, 16).ok()?);
+                i += 2;
+            }
+            b => out.push(b),
+        }
+        i += 1;
+    }
+    String::from_utf8(out).ok()
+}

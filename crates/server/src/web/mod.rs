@@ -1,0 +1,221 @@
+//! The web app: router, handlers and views, and the function that serves them.
+//!
+//! Routes (pages work without JavaScript; every page route has a JSON twin under `/api`):
+//!
+//! | Method | Path                         | What                                   |
+//! |--------|------------------------------|----------------------------------------|
+//! | GET    | `/`                          | start page: the analyses of the session |
+//! | GET    | `/analyses/{id}`             | Effects page of an analysis             |
+//! | GET    | `/join?t=TOKEN`              | sharing: the "continue" page            |
+//! | POST   | `/join`                      | sharing: token → session cookie, 303 → `/` |
+//! | GET    | `/assets/…`                  | CSS and other static files              |
+//! | GET    | `/api/analyses`              | the analysis list (JSON)                |
+//! | GET    | `/api/analyses/{id}/fit`     | the fit document (JSON)                 |
+//!
+//! Security (see [`crate::security`]) wraps every route; response headers are set outermost
+//! so that refusals, timeouts and 404s carry them too.
+
+mod api;
+pub mod effects;
+mod join;
+pub mod pages;
+mod start;
+pub mod state;
+pub mod words;
+
+use std::net::{IpAddr, Ipv4Addr, SocketAddr};
+use std::path::PathBuf;
+use std::sync::Arc;
+
+use axum::Router;
+use axum::body::{Body, Bytes};
+use axum::http::{HeaderName, HeaderValue, StatusCode, header};
+use axum::response::{IntoResponse, Response};
+use axum::routing::get;
+use tower::ServiceBuilder;
+use tower_http::limit::RequestBodyLimitLayer;
+use tower_http::services::ServeDir;
+use tower_http::set_header::SetResponseHeaderLayer;
+use tower_http::timeout::{RequestBodyTimeoutLayer, TimeoutLayer};
+
+pub use state::{Analysis, AppState, ColumnInfo, Glossary};
+
+use crate::error::{Result, ServerError};
+use crate::security::{self, CONTENT_SECURITY_POLICY, DEFAULT_PORT, Limits, Security, SecurityConfig, Token};
+
+/// The router's state: the workspace and the live security state.
+#[derive(Debug, Clone)]
+pub struct Ctx {
+    app: AppState,
+    security: Security,
+}
+
+impl Ctx {
+    fn shared(&self) -> bool {
+        self.security.config().is_shared()
+    }
+
+    /// Looks up an analysis: a malformed id is a bad request, an unknown one is not found.
+    fn analysis(&self, id: &str) -> Result<Arc<Analysis>> {
+        if !state::valid_id(id) {
+            return Err(ServerError::BadRequest(
+                "An analysis id is made of lowercase letters, digits and hyphens.".into(),
+            ));
+        }
+        self.app
+            .get(id)?
+            .ok_or_else(|| ServerError::NotFound(format!("There is no analysis called {id:?} in this session.")))
+    }
+}
+
+/// Where the static assets are: the repository's `assets/` folder.
+pub fn default_assets_dir() -> PathBuf {
+    PathBuf::from(concat!(env!("CARGO_MANIFEST_DIR"), "/../../assets"))
+}
+
+/// The router with the repository's assets folder. Tests drive it with `oneshot`, no socket.
+pub fn router(state: AppState, security: SecurityConfig) -> Router {
+    router_with_assets(state, security, default_assets_dir())
+}
+
+/// The router serving static assets from `assets`.
+pub fn router_with_assets(state: AppState, security: SecurityConfig, assets: PathBuf) -> Router {
+    let limits = security.limits();
+    let security = Security::new(security);
+    let ctx = Ctx { app: state, security: security.clone() };
+    let routes = Router::new()
+        .route("/", get(start::page))
+        .route("/analyses/{id}", get(effects::page))
+        .route("/join", get(join::show).post(join::exchange))
+        .route("/api/analyses", get(api::list))
+        .route("/api/analyses/{id}/fit", get(api::fit))
+        .nest_service("/assets", ServeDir::new(assets))
+        .fallback(not_found)
+        .with_state(ctx);
+    let header = |name: &'static str, value: &'static str| {
+        SetResponseHeaderLayer::overriding(HeaderName::from_static(name), HeaderValue::from_static(value))
+    };
+    routes.layer(
+        ServiceBuilder::new()
+            .layer(header("content-security-policy", CONTENT_SECURITY_POLICY))
+            .layer(header("x-content-type-options", "nosniff"))
+            .layer(header("referrer-policy", "no-referrer"))
+            .layer(header("x-frame-options", "DENY"))
+            .layer(header("cross-origin-opener-policy", "same-origin"))
+            .layer(TimeoutLayer::with_status_code(StatusCode::REQUEST_TIMEOUT, limits.request))
+            .layer(axum::middleware::from_fn_with_state(security, security::guard))
+            .layer(RequestBodyLimitLayer::new(limits.body_bytes))
+            .layer(RequestBodyTimeoutLayer::new(limits.body_idle)),
+    )
+}
+
+async fn not_found() -> ServerError {
+    ServerError::NotFound("There is no page at this address.".into())
+}
+
+/// Reads a whole request body up to `limit` bytes, turning a stalled body into 408 and an
+/// oversized one into 413.
+pub(crate) async fn read_body(body: Body, limit: usize) -> Result<Bytes> {
+    axum::body::to_bytes(body, limit).await.map_err(|e| {
+        let inner = e.into_inner();
+        let mut cause: Option<&(dyn std::error::Error + 'static)> = Some(inner.as_ref());
+        while let Some(c) = cause {
+            if c.is::<tower_http::timeout::TimeoutError>() {
+                return ServerError::Timeout;
+            }
+            if c.is::<http_body_util::LengthLimitError>() {
+                return ServerError::TooLarge;
+            }
+            cause = c.source();
+        }
+        ServerError::BadRequest("The request body could not be read.".into())
+    })
+}
+
+/// How to run the server.
+#[derive(Debug, Clone)]
+pub struct ServeConfig {
+    /// The port; 0 lets the operating system choose. Default [`DEFAULT_PORT`] (7878).
+    pub port: u16,
+    /// Share on the local network (`--share`) instead of listening on 127.0.0.1 only.
+    pub share: bool,
+    /// The LAN address to share on; found automatically when `None`.
+    pub share_address: Option<IpAddr>,
+    /// Where datasets and analyses are kept (`--data-dir`); used once the store is wired in.
+    pub data_dir: Option<PathBuf>,
+    /// The static assets folder.
+    pub assets_dir: PathBuf,
+    /// Body size and time limits.
+    pub limits: Limits,
+    /// The analyses to start with (e.g. the demo).
+    pub state: AppState,
+}
+
+impl ServeConfig {
+    /// Local-only on the default port, with default limits and the repository's assets.
+    pub fn new(state: AppState) -> Self {
+        ServeConfig {
+            port: DEFAULT_PORT,
+            share: false,
+            share_address: None,
+            data_dir: None,
+            assets_dir: default_assets_dir(),
+            limits: Limits::default(),
+            state,
+        }
+    }
+}
+
+/// Binds the socket and serves until Ctrl-C. Local mode binds 127.0.0.1; `share` binds the LAN
+/// address and prints the joining link with its token.
+pub async fn serve(config: ServeConfig) -> Result<()> {
+    let ip = if config.share {
+        match config.share_address {
+            Some(a) => a,
+            None => security::detect_lan_address()?,
+        }
+    } else {
+        IpAddr::V4(Ipv4Addr::LOCALHOST)
+    };
+    let wanted = SocketAddr::new(ip, config.port);
+    let listener = tokio::net::TcpListener::bind(wanted)
+        .await
+        .map_err(|source| ServerError::Bind { address: wanted.to_string(), source })?;
+    let port = listener.local_addr().map_err(ServerError::Serve)?.port();
+    let security = if config.share {
+        SecurityConfig::shared(port, ip, Token::generate()?)
+    } else {
+        SecurityConfig::local(port)
+    }
+    .with_limits(config.limits);
+
+    if let Some(link) = security.share_link() {
+        println!("wardcast is shared on the local network. Open this link, or send it to colleagues:");
+        println!();
+        println!("    {link}");
+        println!();
+        println!("Warning: plain HTTP on a local network can be read by anyone else on that network.");
+        println!("Share only on a network you trust, and stop wardcast (Ctrl-C) when the meeting ends.");
+    } else {
+        println!("wardcast is running at http://127.0.0.1:{port}/ (only this computer can reach it).");
+    }
+    println!("Press Ctrl-C to stop.");
+
+    let app = router_with_assets(config.state, security, config.assets_dir);
+    axum::serve(listener, app)
+        .with_graceful_shutdown(async {
+            // If the signal handler cannot be installed, run until the process is killed.
+            if tokio::signal::ctrl_c().await.is_err() {
+                std::future::pending::<()>().await;
+            }
+        })
+        .await
+        .map_err(ServerError::Serve)
+}
+
+/// A 303 redirect, for form posts that lead back to a page.
+pub(crate) fn see_other(location: &'static str) -> Response {
+    let mut response = StatusCode::SEE_OTHER.into_response();
+    response.headers_mut().insert(header::LOCATION, HeaderValue::from_static(location));
+    response
+}

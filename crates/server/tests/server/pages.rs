@@ -1,0 +1,141 @@
+//! Pages: status codes, what the Effects page leads with, the cautions, escaping of
+//! user-supplied names, and a snapshot of the Effects page.
+
+use axum::http::StatusCode;
+use wardcast::security::SecurityConfig;
+use wardcast::web::{Analysis, AppState, router};
+use wardcast_contract::cautions::standing_cautions;
+
+use crate::{NASTY, NASTY_ESCAPED, PORT, get, header_of, local_app, sample_fit, sample_glossary, send, text};
+
+/// Fetches a page and checks its status; returns the body.
+async fn page(app: &axum::Router, path: &str, expected: StatusCode) -> String {
+    let response = send(app, get(path)).await;
+    assert_eq!(response.status(), expected, "GET {path}");
+    if expected == StatusCode::OK {
+        assert_eq!(header_of(&response, "content-type"), "text/html; charset=utf-8", "GET {path}");
+    }
+    text(response).await
+}
+
+#[tokio::test]
+async fn each_page_answers_with_its_status() {
+    let app = local_app();
+    let cases = [
+        ("/", StatusCode::OK, "Larkmoor assaults"),
+        ("/analyses/demo", StatusCode::OK, "What the model says"),
+        ("/analyses/nothing-here", StatusCode::NOT_FOUND, "no analysis called"),
+        ("/analyses/Not_An_Id", StatusCode::BAD_REQUEST, "lowercase letters, digits and hyphens"),
+        ("/analyses/-demo", StatusCode::BAD_REQUEST, "lowercase letters, digits and hyphens"),
+        ("/analyses/demo/", StatusCode::NOT_FOUND, "no page at this address"),
+        ("/analyses", StatusCode::NOT_FOUND, "no page at this address"),
+        ("/nowhere", StatusCode::NOT_FOUND, "no page at this address"),
+    ];
+    for (path, status, phrase) in cases {
+        let html = page(&app, path, status).await;
+        assert!(html.contains(phrase), "GET {path} should mention {phrase:?}");
+        assert!(html.contains("<link rel=\"stylesheet\" href=\"/assets/style.css\">"), "GET {path} is styled");
+    }
+}
+
+#[tokio::test]
+async fn an_empty_session_says_how_to_begin() {
+    let app = router(AppState::new(), SecurityConfig::local(PORT));
+    let html = page(&app, "/", StatusCode::OK).await;
+    assert!(html.contains("There are no analyses yet"));
+}
+
+/// Whether the HTML has an attribute like ` onclick=`.
+fn has_event_handler(html: &str) -> bool {
+    html.match_indices(" on").any(|(i, _)| {
+        let rest = &html[i + 3..];
+        let name_len = rest.bytes().take_while(u8::is_ascii_lowercase).count();
+        name_len > 0 && rest[name_len..].starts_with('=')
+    })
+}
+
+#[tokio::test]
+async fn pages_have_no_inline_script_or_style() {
+    let app = local_app();
+    for path in ["/", "/analyses/demo", "/analyses/missing"] {
+        let html = page(&app, path, send(&app, get(path)).await.status()).await;
+        assert!(!html.contains("<script"), "{path} has a script element");
+        assert!(!html.contains(" style="), "{path} has a style attribute");
+        assert!(!html.contains("<style"), "{path} has a style element");
+        assert!(!has_event_handler(&html), "{path} has an inline event handler");
+    }
+}
+
+#[tokio::test]
+async fn the_effects_page_leads_with_comparisons_and_keeps_the_cautions() {
+    let html = page(&local_app(), "/analyses/demo", StatusCode::OK).await;
+    // The comparison sentences come before the fit statistics and the tables.
+    let sentence = "Districts where unemployment is one percentage point higher, with the other indicators equal, \
+                    have on average 2.25 more assault incidents per 10,000 residents (95% interval 1.05 to 3.45 more).";
+    let at_sentence = html.find(sentence).expect("the unemployment sentence");
+    let at_fit = html.find("How well the model fits").expect("fit section");
+    let at_tables = html.find("The workings").expect("tables");
+    assert!(at_sentence < at_fit && at_fit < at_tables);
+    for phrase in [
+        "Districts where housing vacancy is twice as high",
+        "Districts where the district type is \u{201c}centre\u{201d}, compared with those where it is \u{201c}residential\u{201d}",
+        "The data are also consistent with no difference at all.",
+        "account for 70% of the variation in assault rate",
+        "62 of 63",
+        "a pattern this strong would rarely arise by chance",
+        "p &#60; 0.0001",
+        "LK-33",
+        "missing value in vacancy_pct",
+    ] {
+        assert!(html.contains(phrase), "the page should contain {phrase:?}");
+    }
+    // Full-precision values ride along for checking against the JSON.
+    assert!(html.contains("<data value=\"2.25\">2.25</data>"));
+    assert!(html.contains("<data value=\"-6.5\">-6.50</data>"));
+    // The five cautions, in order, in a panel titled as such.
+    assert!(html.contains("Read before deciding"));
+    let mut last = 0;
+    for caution in standing_cautions() {
+        let at = html.find(&caution.heading).unwrap_or_else(|| panic!("caution {:?}", caution.heading));
+        assert!(at > last, "cautions keep their order");
+        last = at;
+    }
+    // The section route shows where the analyst is; sections not built yet carry no link.
+    assert!(html.contains("<a href=\"/analyses/demo\" title=\"What the model says, with intervals\" aria-current=\"page\">Effects</a>"));
+    assert!(html.contains("<li class=\"later\"><span title=\"Whether the model&#39;s assumptions hold (not available yet)\">Soundness</span></li>"));
+    // No significance stars.
+    assert!(!html.contains("***"));
+}
+
+#[tokio::test]
+async fn user_supplied_names_are_escaped_everywhere() {
+    let state = AppState::new();
+    let analysis = Analysis::new("nasty", NASTY, sample_glossary(NASTY), sample_fit(NASTY, NASTY)).expect("valid id");
+    state.insert(analysis).expect("insert");
+    let app = router(state, SecurityConfig::local(PORT));
+    for path in ["/", "/analyses/nasty"] {
+        let html = page(&app, path, StatusCode::OK).await;
+        assert!(!html.contains(NASTY), "{path} contains the raw name");
+        assert!(!html.contains("<script"), "{path} contains a script tag");
+        assert!(html.contains(NASTY_ESCAPED), "{path} shows the escaped name");
+    }
+    // The JSON API returns the name as data, intact.
+    let response = send(&app, get("/api/analyses/nasty/fit")).await;
+    assert_eq!(header_of(&response, "content-type"), "application/json");
+    let doc: serde_json::Value = serde_json::from_str(&text(response).await).expect("json");
+    assert_eq!(doc["rows_dropped"][0]["key"], NASTY);
+}
+
+#[tokio::test]
+async fn error_pages_escape_what_they_echo() {
+    let app = local_app();
+    // A path segment that is a valid id but unknown is echoed back in the 404 message.
+    let html = page(&app, "/analyses/x-1", StatusCode::NOT_FOUND).await;
+    assert!(html.contains("&#34;x-1&#34;"));
+}
+
+#[tokio::test]
+async fn the_effects_page_snapshot() {
+    let html = page(&local_app(), "/analyses/demo", StatusCode::OK).await;
+    insta::assert_snapshot!("effects_page", html);
+}
