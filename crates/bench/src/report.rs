@@ -26,7 +26,7 @@ impl Table {
 
     /// Prints every figure as an aligned table on standard output.
     pub fn print(&self) {
-        println!("{:<60} {:>18}   {}", "case", "figure", "goal");
+        println!("{:<60} {:>18}   goal", "case", "figure");
         for r in &self.rows {
             println!("{:<60} {:>18}   {}", r.case, r.figure, r.goal);
         }

@@ -4,6 +4,7 @@
 //! them (`From`/constructor functions live beside each document type). The CLI, the server
 //! and the store all speak these types, and every document carries [`SCHEMA_VERSION`].
 
+pub mod allocation;
 pub mod cautions;
 pub mod checks;
 pub mod dataset;

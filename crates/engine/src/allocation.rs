@@ -36,6 +36,9 @@ use crate::spec::Transform;
 
 /// Relative tolerance on the blend weights summing to 1.
 const BLEND_SUM_TOLERANCE: f64 = 1e-9;
+/// Share differences closer than this (in percentage points) count as a tie, so rounding noise
+/// does not pick the district named as the largest mover.
+const TIE_PP: f64 = 1e-9;
 /// Fewest simulation draws accepted (so the 2.5 and 97.5 percentiles rest on a few draws each).
 pub const MIN_DRAWS: usize = 100;
 /// Most simulation draws accepted (keeps a request bounded in time).
@@ -139,7 +142,10 @@ pub struct SimulationOptions {
 
 impl Default for SimulationOptions {
     fn default() -> Self {
-        Self { draws: DEFAULT_DRAWS, seed: DEFAULT_SEED }
+        Self {
+            draws: DEFAULT_DRAWS,
+            seed: DEFAULT_SEED,
+        }
     }
 }
 
@@ -260,7 +266,7 @@ pub struct BasisComparison {
     pub second: Basis,
     /// Largest absolute share difference over districts, in percentage points.
     pub max_abs_pp: f64,
-    /// The district where it occurs (the first key in order on a tie).
+    /// The district where it occurs (the first key in order on a tie within 1e-9 points).
     pub max_key: String,
     /// Mean absolute share difference, in percentage points.
     pub mean_abs_pp: f64,
@@ -329,6 +335,9 @@ pub struct Uncertainty {
     pub factor: CovarianceFactor,
     /// District-draws whose predicted rate was negative and clamped to 0.
     pub clamped_draws: usize,
+    /// The widest 95% range of a district's simulated basis share, in percentage points, to set
+    /// beside [`Sensitivity::max_range_pp`]: model uncertainty against the choice of basis.
+    pub max_share_width_pp: f64,
     /// Ranges per district, in key order.
     pub districts: Vec<DistrictRange>,
 }
@@ -395,16 +404,24 @@ impl Allocation {
 /// Checks blend weights: each in [0, 1] and summing to 1.
 pub fn validate_basis(basis: &Basis) -> Result<()> {
     if let Basis::Blend(w) = basis {
-        for (name, v) in [("population", w.population), ("observed", w.observed), ("expected", w.expected)] {
+        for (name, v) in [
+            ("population", w.population),
+            ("observed", w.observed),
+            ("expected", w.expected),
+        ] {
             if !(v.is_finite() && (0.0..=1.0).contains(&v)) {
                 return Err(EngineError::BadBlendWeights {
-                    reason: format!("the {name} weight is {v}; each weight must lie between 0 and 1"),
+                    reason: format!(
+                        "the {name} weight is {v}; each weight must lie between 0 and 1"
+                    ),
                 });
             }
         }
         let sum = w.population + w.observed + w.expected;
         if (sum - 1.0).abs() > BLEND_SUM_TOLERANCE {
-            return Err(EngineError::BadBlendWeights { reason: format!("the weights sum to {sum}, not 1") });
+            return Err(EngineError::BadBlendWeights {
+                reason: format!("the weights sum to {sum}, not 1"),
+            });
         }
     }
     Ok(())
@@ -421,12 +438,22 @@ pub fn check_bounds(n: usize, total: u64, floor: Option<u64>, cap: Option<u64>) 
     if let Some(f) = floor
         && nn * u128::from(f) > u128::from(total)
     {
-        return Err(EngineError::FloorsExceedTotal { floor: f, districts: n, needed: nn * u128::from(f), total });
+        return Err(EngineError::FloorsExceedTotal {
+            floor: f,
+            districts: n,
+            needed: nn * u128::from(f),
+            total,
+        });
     }
     if let Some(c) = cap
         && nn * u128::from(c) < u128::from(total)
     {
-        return Err(EngineError::CapsBelowTotal { cap: c, districts: n, allowed: nn * u128::from(c), total });
+        return Err(EngineError::CapsBelowTotal {
+            cap: c,
+            districts: n,
+            allowed: nn * u128::from(c),
+            total,
+        });
     }
     Ok(())
 }
@@ -435,7 +462,9 @@ pub fn check_bounds(n: usize, total: u64, floor: Option<u64>, cap: Option<u64>) 
 fn shares_of(values: &[f64], basis: &str) -> Result<Vec<f64>> {
     let sum: f64 = values.iter().sum();
     if !(sum > 0.0 && sum.is_finite()) {
-        return Err(EngineError::ZeroBasis { basis: basis.to_owned() });
+        return Err(EngineError::ZeroBasis {
+            basis: basis.to_owned(),
+        });
     }
     Ok(values.iter().map(|v| v / sum).collect())
 }
@@ -443,7 +472,9 @@ fn shares_of(values: &[f64], basis: &str) -> Result<Vec<f64>> {
 /// Combines the three share vectors with the basis weights.
 fn combine(basis: &Basis, pop: &[f64], obs: &[f64], exp: &[f64]) -> Vec<f64> {
     let [a, b, c] = basis.weights();
-    (0..pop.len()).map(|i| a * pop[i] + b * obs[i] + c * exp[i]).collect()
+    (0..pop.len())
+        .map(|i| a * pop[i] + b * obs[i] + c * exp[i])
+        .collect()
 }
 
 /// Splits `total` in proportion to `shares` with every amount in `[floors[i], caps[i]]`, by
@@ -457,7 +488,12 @@ fn combine(basis: &Basis, pop: &[f64], obs: &[f64], exp: &[f64]) -> Vec<f64> {
 /// so a district above its cap stays above it (and symmetrically for floors). When the free
 /// districts' shares are all zero, what is left is split equally among them. The caller checks
 /// feasibility first ([`check_bounds`]). Returns the amounts and each district's bound status.
-pub fn water_fill(shares: &[f64], total: f64, floors: &[f64], caps: &[f64]) -> (Vec<f64>, Vec<BoundStatus>) {
+pub fn water_fill(
+    shares: &[f64],
+    total: f64,
+    floors: &[f64],
+    caps: &[f64],
+) -> (Vec<f64>, Vec<BoundStatus>) {
     let n = shares.len();
     let mut amount = vec![0.0; n];
     let mut status = vec![BoundStatus::Free; n];
@@ -467,11 +503,18 @@ pub fn water_fill(shares: &[f64], total: f64, floors: &[f64], caps: &[f64]) -> (
         if free.is_empty() {
             break;
         }
-        let fixed: f64 = (0..n).filter(|&i| status[i] != BoundStatus::Free).map(|i| amount[i]).sum();
+        let fixed: f64 = (0..n)
+            .filter(|&i| status[i] != BoundStatus::Free)
+            .map(|i| amount[i])
+            .sum();
         let left = total - fixed;
         let weight: f64 = free.iter().map(|&i| shares[i]).sum();
         for &i in &free {
-            amount[i] = if weight > 0.0 { left * shares[i] / weight } else { left / free.len() as f64 };
+            amount[i] = if weight > 0.0 {
+                left * shares[i] / weight
+            } else {
+                left / free.len() as f64
+            };
         }
         let over: f64 = free.iter().map(|&i| (amount[i] - caps[i]).max(0.0)).sum();
         let under: f64 = free.iter().map(|&i| (floors[i] - amount[i]).max(0.0)).sum();
@@ -506,7 +549,11 @@ pub fn largest_remainder(amounts: &[f64], total: u64, floors: &[u64], caps: &[u6
     let mut whole: Vec<u64> = (0..n)
         .map(|i| {
             let a = amounts[i].max(0.0).floor();
-            let a = if a >= u64::MAX as f64 { u64::MAX } else { a as u64 };
+            let a = if a >= u64::MAX as f64 {
+                u64::MAX
+            } else {
+                a as u64
+            };
             a.clamp(floors[i], caps[i])
         })
         .collect();
@@ -572,8 +619,8 @@ pub fn covariance_factor(cov: &Matrix) -> Result<(Matrix, CovarianceFactor)> {
         return Err(EngineError::NotPositiveSemidefinite { eigenvalue: bad });
     }
     let mut a = Matrix::zeros(p, p);
-    for k in 0..p {
-        let s = values[k].max(0.0).sqrt();
+    for (k, value) in values.iter().enumerate() {
+        let s = value.max(0.0).sqrt();
         for i in 0..p {
             a.set(i, k, vectors.get(i, k) * s);
         }
@@ -592,7 +639,7 @@ fn cholesky(c: &Matrix, scale: f64) -> Option<Matrix> {
                 s -= l.get(i, k) * l.get(j, k);
             }
             if i == j {
-                if !(s > 1e-14 * scale) {
+                if s.is_nan() || s <= 1e-14 * scale {
                     return None;
                 }
                 l.set(i, i, s.sqrt());
@@ -617,7 +664,11 @@ fn jacobi_eigen(c: &Matrix) -> (Vec<f64>, Matrix) {
     let mut v = Matrix::identity(n);
     let norm: f64 = a.as_slice().iter().map(|x| x * x).sum::<f64>().sqrt();
     for _sweep in 0..100 {
-        let off: f64 = (0..n).flat_map(|i| (0..n).filter(move |&j| j != i).map(move |j| (i, j))).map(|(i, j)| a.get(i, j).powi(2)).sum::<f64>().sqrt();
+        let off: f64 = (0..n)
+            .flat_map(|i| (0..n).filter(move |&j| j != i).map(move |j| (i, j)))
+            .map(|(i, j)| a.get(i, j).powi(2))
+            .sum::<f64>()
+            .sqrt();
         if off <= 1e-15 * norm || norm == 0.0 {
             break;
         }
@@ -661,7 +712,10 @@ struct Normal {
 
 impl Normal {
     fn new(seed: u64) -> Self {
-        Self { rng: ChaCha8Rng::seed_from_u64(seed), spare: None }
+        Self {
+            rng: ChaCha8Rng::seed_from_u64(seed),
+            spare: None,
+        }
     }
     fn uniform(&mut self) -> f64 {
         // In (0, 1): the midpoint of one of 2^53 equal cells.
@@ -692,7 +746,11 @@ pub fn percentiles(values: &[f64]) -> Percentiles {
         let hi = (lo + 1).min(v.len() - 1);
         v[lo] + (h - lo as f64) * (v[hi] - v[lo])
     };
-    Percentiles { p2_5: q(0.025), p50: q(0.5), p97_5: q(0.975) }
+    Percentiles {
+        p2_5: q(0.025),
+        p50: q(0.5),
+        p97_5: q(0.975),
+    }
 }
 
 /// How the linear predictor maps to a rate.
@@ -717,13 +775,17 @@ impl Scale {
             }
             Scale::Log { smearing } => {
                 let r = eta.exp() * smearing;
-                if r.is_finite() { (r, false) } else { (f64::MAX, true) }
+                if r.is_finite() {
+                    (r, false)
+                } else {
+                    (f64::MAX, true)
+                }
             }
         }
     }
 }
 
-/// Checks the district inputs, joins the model rows, and returns them in key order.
+/// Checks the district inputs and returns them in key order.
 fn prepare_districts(districts: &[DistrictInput]) -> Result<Vec<DistrictInput>> {
     if districts.is_empty() {
         return Err(EngineError::EmptyInput);
@@ -742,7 +804,10 @@ fn prepare_districts(districts: &[DistrictInput]) -> Result<Vec<DistrictInput>> 
         if !(d.observed.is_finite() && d.observed >= 0.0) {
             return Err(EngineError::BadAllocationInput {
                 key: d.key.clone(),
-                reason: format!("observed incidents must be zero or more, not {}", d.observed),
+                reason: format!(
+                    "observed incidents must be zero or more, not {}",
+                    d.observed
+                ),
             });
         }
     }
@@ -752,12 +817,28 @@ fn prepare_districts(districts: &[DistrictInput]) -> Result<Vec<DistrictInput>> 
 }
 
 /// The design row of each district and where it comes from.
-fn model_rows(model: &ExpectedModel<'_>, districts: &[DistrictInput]) -> Result<Vec<(Vec<f64>, ExpectedSource)>> {
+fn model_rows(
+    model: &ExpectedModel<'_>,
+    districts: &[DistrictInput],
+) -> Result<Vec<(Vec<f64>, ExpectedSource)>> {
     let design = model.fit.design();
     let p = model.fit.nparams();
-    let fitted: HashMap<&str, usize> = design.keys().iter().enumerate().map(|(i, k)| (k.as_str(), i)).collect();
-    let extra: HashMap<&str, &Vec<f64>> = model.extra_rows.iter().map(|(k, r)| (k.as_str(), r)).collect();
-    let dropped: HashMap<&str, &str> = design.dropped().iter().map(|d| (d.key.as_str(), d.reason.as_str())).collect();
+    let fitted: HashMap<&str, usize> = design
+        .keys()
+        .iter()
+        .enumerate()
+        .map(|(i, k)| (k.as_str(), i))
+        .collect();
+    let extra: HashMap<&str, &Vec<f64>> = model
+        .extra_rows
+        .iter()
+        .map(|(k, r)| (k.as_str(), r))
+        .collect();
+    let dropped: HashMap<&str, &str> = design
+        .dropped()
+        .iter()
+        .map(|d| (d.key.as_str(), d.reason.as_str()))
+        .collect();
     let mut out = Vec::with_capacity(districts.len());
     for d in districts {
         let key = d.key.as_str();
@@ -783,15 +864,24 @@ fn model_rows(model: &ExpectedModel<'_>, districts: &[DistrictInput]) -> Result<
                 Some(reason) => format!("it was left out of the fit ({reason})"),
                 None => "it is not in the model's data".to_owned(),
             };
-            return Err(EngineError::NoExpected { key: key.to_owned(), why });
+            return Err(EngineError::NoExpected {
+                key: key.to_owned(),
+                why,
+            });
         };
         out.push(row);
     }
     Ok(out)
 }
 
-/// Expected incidents for one coefficient vector; counts the clamped districts.
-fn expected_for(rows: &[(Vec<f64>, ExpectedSource)], beta: &[f64], residents: &[f64], unit: f64, scale: Scale) -> (Vec<f64>, Vec<bool>) {
+/// Expected incidents for one coefficient vector, with a flag per district whose rate was clamped.
+fn expected_for(
+    rows: &[(Vec<f64>, ExpectedSource)],
+    beta: &[f64],
+    residents: &[f64],
+    unit: f64,
+    scale: Scale,
+) -> (Vec<f64>, Vec<bool>) {
     rows.iter()
         .zip(residents)
         .map(|((x, _), &r)| {
@@ -825,13 +915,19 @@ pub fn allocate(
     if !(MIN_DRAWS..=MAX_DRAWS).contains(&sim.draws) {
         return Err(EngineError::BadSimulationOption {
             option: "draws".to_owned(),
-            reason: format!("{} draws were asked for; use between {MIN_DRAWS} and {MAX_DRAWS}", sim.draws),
+            reason: format!(
+                "{} draws were asked for; use between {MIN_DRAWS} and {MAX_DRAWS}",
+                sim.draws
+            ),
         });
     }
     if !(model.rate_unit.is_finite() && model.rate_unit > 0.0) {
         return Err(EngineError::BadSimulationOption {
             option: "rate unit".to_owned(),
-            reason: format!("the rate unit must be a positive number, not {}", model.rate_unit),
+            reason: format!(
+                "the rate unit must be a positive number, not {}",
+                model.rate_unit
+            ),
         });
     }
     let transform = model.fit.design().spec().response_transform;
@@ -843,7 +939,11 @@ pub fn allocate(
             let smearing = e.iter().map(|v| v.exp()).sum::<f64>() / e.len() as f64;
             Scale::Log { smearing }
         }
-        Some(t) => return Err(EngineError::UnsupportedResponseTransform { label: t.label("rate") }),
+        Some(t) => {
+            return Err(EngineError::UnsupportedResponseTransform {
+                label: t.label("rate"),
+            });
+        }
     };
     let mut budget_map: BTreeMap<&str, u64> = BTreeMap::new();
     for b in budgets {
@@ -868,7 +968,16 @@ pub fn allocate(
     let floors_u: Vec<u64> = vec![opts.floor.unwrap_or(0); n];
     let caps_u: Vec<u64> = vec![opts.cap.unwrap_or(u64::MAX); n];
     let floors: Vec<f64> = floors_u.iter().map(|&v| v as f64).collect();
-    let caps: Vec<f64> = caps_u.iter().map(|&v| if v == u64::MAX { f64::INFINITY } else { v as f64 }).collect();
+    let caps: Vec<f64> = caps_u
+        .iter()
+        .map(|&v| {
+            if v == u64::MAX {
+                f64::INFINITY
+            } else {
+                v as f64
+            }
+        })
+        .collect();
     let place = |s: &[f64]| -> (Vec<f64>, Vec<BoundStatus>, Vec<u64>) {
         let (a, st) = water_fill(s, total, &floors, &caps);
         let w = largest_remainder(&a, opts.total, &floors_u, &caps_u);
@@ -880,8 +989,11 @@ pub fn allocate(
     let (_, _, exp_a) = place(&exp_s);
 
     // Sensitivity across the pure bases.
-    let pure: [(Basis, &Vec<f64>, &Vec<u64>); 3] =
-        [(Basis::Population, &pop_s, &pop_a), (Basis::Observed, &obs_s, &obs_a), (Basis::Expected, &exp_s, &exp_a)];
+    let pure: [(Basis, &Vec<f64>, &Vec<u64>); 3] = [
+        (Basis::Population, &pop_s, &pop_a),
+        (Basis::Observed, &obs_s, &obs_a),
+        (Basis::Expected, &exp_s, &exp_a),
+    ];
     let mut comparisons = Vec::new();
     for (i, j) in [(0, 1), (0, 2), (1, 2)] {
         let (bi, si, ai) = pure[i];
@@ -889,11 +1001,14 @@ pub fn allocate(
         let diffs: Vec<f64> = (0..n).map(|k| 100.0 * (si[k] - sj[k]).abs()).collect();
         let mut max_k = 0;
         for k in 1..n {
-            if diffs[k] > diffs[max_k] {
+            if diffs[k] > diffs[max_k] + TIE_PP {
                 max_k = k;
             }
         }
-        let moved: u128 = (0..n).map(|k| u128::from(ai[k].abs_diff(aj[k]))).sum::<u128>() / 2;
+        let moved: u128 = (0..n)
+            .map(|k| u128::from(ai[k].abs_diff(aj[k])))
+            .sum::<u128>()
+            / 2;
         comparisons.push(BasisComparison {
             first: bi,
             second: bj,
@@ -906,7 +1021,10 @@ pub fn allocate(
     let ranges: Vec<(f64, f64)> = (0..n)
         .map(|k| {
             let v = [pop_s[k], obs_s[k], exp_s[k]];
-            (v.iter().copied().fold(f64::INFINITY, f64::min), v.iter().copied().fold(f64::NEG_INFINITY, f64::max))
+            (
+                v.iter().copied().fold(f64::INFINITY, f64::min),
+                v.iter().copied().fold(f64::NEG_INFINITY, f64::max),
+            )
         })
         .collect();
     let range_pp: Vec<f64> = ranges.iter().map(|(lo, hi)| 100.0 * (hi - lo)).collect();
@@ -917,7 +1035,11 @@ pub fn allocate(
     };
 
     // Simulation of the coefficient distribution.
-    let sim_basis = if opts.basis.uses_model() { opts.basis } else { Basis::Expected };
+    let sim_basis = if opts.basis.uses_model() {
+        opts.basis
+    } else {
+        Basis::Expected
+    };
     let (factor, factor_kind) = covariance_factor(model.fit.covariance())?;
     let p = beta.len();
     let mut normal = Normal::new(sim.seed);
@@ -951,19 +1073,25 @@ pub fn allocate(
             amount_draws[k].push(a[k]);
         }
     }
+    let share_ranges: Vec<Percentiles> = share_draws.iter().map(|v| percentiles(v)).collect();
+    let max_share_width_pp = share_ranges
+        .iter()
+        .map(|p| 100.0 * (p.p97_5 - p.p2_5))
+        .fold(0.0, f64::max);
     let uncertainty = Uncertainty {
         seed: sim.seed,
         draws: sim.draws,
         basis: sim_basis,
         factor: factor_kind,
         clamped_draws,
+        max_share_width_pp,
         districts: (0..n)
             .map(|k| {
                 let amount = percentiles(&amount_draws[k]);
                 DistrictRange {
                     key: ds[k].key.clone(),
                     expected: percentiles(&exp_draws[k]),
-                    basis_share: percentiles(&share_draws[k]),
+                    basis_share: share_ranges[k],
                     amount,
                     share: Percentiles {
                         p2_5: amount.p2_5 / total,
@@ -981,7 +1109,9 @@ pub fn allocate(
     let out: Vec<DistrictAllocation> = (0..n)
         .map(|k| {
             let current = budget_map.get(ds[k].key.as_str()).copied();
-            let change = current.map(|c| amounts[k] as i128 - c as i128).map(|d| d.clamp(i64::MIN as i128, i64::MAX as i128) as i64);
+            let change = current
+                .map(|c| amounts[k] as i128 - c as i128)
+                .map(|d| d.clamp(i64::MIN as i128, i64::MAX as i128) as i64);
             let percent_change = match (current, change) {
                 (Some(c), Some(d)) if c > 0 => Some(100.0 * d as f64 / c as f64),
                 _ => None,
@@ -999,7 +1129,11 @@ pub fn allocate(
                     expected: exp_s[k],
                     blend: blend.then_some(proposal_s[k]),
                 },
-                amounts_by_basis: BasisAmounts { population: pop_a[k], observed: obs_a[k], expected: exp_a[k] },
+                amounts_by_basis: BasisAmounts {
+                    population: pop_a[k],
+                    observed: obs_a[k],
+                    expected: exp_a[k],
+                },
                 share_min: ranges[k].0,
                 share_max: ranges[k].1,
                 share_range_pp: range_pp[k],
@@ -1015,7 +1149,10 @@ pub fn allocate(
     let unmatched_budgets: Vec<BudgetRow> = budget_map
         .iter()
         .filter(|(k, _)| !district_keys.contains(*k))
-        .map(|(k, &amount)| BudgetRow { key: (*k).to_owned(), amount })
+        .map(|(k, &amount)| BudgetRow {
+            key: (*k).to_owned(),
+            amount,
+        })
         .collect();
 
     // Notes.
@@ -1023,9 +1160,10 @@ pub fn allocate(
         "The allocation divides prevention and service funding among areas; it says nothing about any resident."
             .to_owned(),
         format!(
-            "Shares under each basis are shown side by side; between bases a district's share moves by up to {:.2} \
-             percentage points (mean {:.2}). The choice of basis, not the model, drives much of the money.",
-            sensitivity.max_range_pp, sensitivity.mean_range_pp
+            "Shares under each basis are shown side by side: between bases a district's share moves by up to {:.2} \
+             percentage points (mean {:.2}), while the model's uncertainty gives a 95% range at most {:.2} points \
+             wide. Compare the two before reading the proposal as driven by the model.",
+            sensitivity.max_range_pp, sensitivity.mean_range_pp, max_share_width_pp
         ),
         format!(
             "Amounts are rounded to whole units by the largest-remainder method, so they sum exactly to {}.",
@@ -1037,24 +1175,44 @@ pub fn allocate(
             sim.draws, sim.seed
         ),
     ];
-    let no_budget: Vec<&str> =
-        out.iter().filter(|d| d.current == CurrentBudget::NoCurrentBudget).map(|d| d.key.as_str()).collect();
+    if !opts.basis.uses_model() {
+        notes.push(format!(
+            "The {} basis does not use the model, so the proposal carries no model uncertainty; the ranges shown are \
+             those of the expected-incidents basis.",
+            opts.basis.name()
+        ));
+    }
+    let no_budget: Vec<&str> = out
+        .iter()
+        .filter(|d| d.current == CurrentBudget::NoCurrentBudget)
+        .map(|d| d.key.as_str())
+        .collect();
     if !no_budget.is_empty() {
         notes.push(format!("No current budget: {}.", no_budget.join(", ")));
     }
     if !unmatched_budgets.is_empty() {
         let keys: Vec<&str> = unmatched_budgets.iter().map(|b| b.key.as_str()).collect();
-        notes.push(format!("Budget rows that match no district: {}.", keys.join(", ")));
+        notes.push(format!(
+            "Budget rows that match no district: {}.",
+            keys.join(", ")
+        ));
     }
-    let out_of_fit: Vec<&str> =
-        out.iter().filter(|d| d.expected_source == ExpectedSource::OutOfFit).map(|d| d.key.as_str()).collect();
+    let out_of_fit: Vec<&str> = out
+        .iter()
+        .filter(|d| d.expected_source == ExpectedSource::OutOfFit)
+        .map(|d| d.key.as_str())
+        .collect();
     if !out_of_fit.is_empty() {
         notes.push(format!(
             "Not among the fitted rows; expected incidents predicted from their indicator values: {}.",
             out_of_fit.join(", ")
         ));
     }
-    let clamped_keys: Vec<&str> = out.iter().filter(|d| d.expected_clamped).map(|d| d.key.as_str()).collect();
+    let clamped_keys: Vec<&str> = out
+        .iter()
+        .filter(|d| d.expected_clamped)
+        .map(|d| d.key.as_str())
+        .collect();
     if !clamped_keys.is_empty() {
         notes.push(format!(
             "The model predicts a negative rate for {}; expected incidents there are set to 0.",

@@ -8,7 +8,7 @@ use crate::dist;
 use crate::error::{EngineError, Result};
 use std::borrow::Cow;
 
-use crate::linalg::{PivotedQr, QrOptions, dot_dd, mul_vec_dd, sum_dd};
+use crate::linalg::{PivotedQr, QrOptions, dot_dd, sum_dd};
 use crate::matrix::Matrix;
 
 /// Below this ratio `SSE / Σwy²` a fit is treated as exact: the residuals are rounding noise of
@@ -135,13 +135,17 @@ impl Fit {
             for (j, name) in names.iter().enumerate().skip(first) {
                 let c = x.column(j);
                 if c.iter().all(|&v| v == c[0]) {
-                    return Err(EngineError::ConstantPredictor { column: name.clone() });
+                    return Err(EngineError::ConstantPredictor {
+                        column: name.clone(),
+                    });
                 }
             }
         }
         let y = design.y();
         if design.has_intercept() && y.iter().all(|&v| v == y[0]) {
-            return Err(EngineError::ConstantResponse { column: design.response_label() });
+            return Err(EngineError::ConstantResponse {
+                column: design.response_label(),
+            });
         }
 
         // Weighted problem: rows scaled by √w.
@@ -156,25 +160,37 @@ impl Fit {
                         *v *= si;
                     }
                 }
-                (Cow::Owned(xw), y.iter().zip(s).map(|(a, b)| a * b).collect())
+                (
+                    Cow::Owned(xw),
+                    y.iter().zip(s).map(|(a, b)| a * b).collect(),
+                )
             }
         };
 
         let qr = PivotedQr::factor(&xw, &opts.qr);
         if qr.rank() < p {
             let col = qr.aliased_columns()[0];
-            let combination = qr.alias_combination(col).into_iter().map(|(j, _)| names[j].clone()).collect();
-            return Err(EngineError::Aliased { column: names[col].clone(), combination });
+            let combination = qr
+                .alias_combination(col)
+                .into_iter()
+                .map(|(j, _)| names[j].clone())
+                .collect();
+            return Err(EngineError::Aliased {
+                column: names[col].clone(),
+                combination,
+            });
         }
         let ls = qr.least_squares(&yw);
         let b = ls.coefficients;
 
         // Raw (unweighted) fitted values and residuals, in compensated arithmetic.
-        let fitted = mul_vec_dd(x, &b);
+        // The refined residuals are those of the √w-scaled problem; dividing by √wᵢ gives the raw
+        // ones to rounding, and fitted values follow as y − e.
         let residuals: Vec<f64> = match &sw {
             None => ls.residuals.clone(),
-            Some(_) => y.iter().zip(&fitted).map(|(a, f)| a - f).collect(),
+            Some(s) => ls.residuals.iter().zip(s).map(|(e, si)| e / si).collect(),
         };
+        let fitted: Vec<f64> = y.iter().zip(&residuals).map(|(a, e)| a - e).collect();
         let wt = |i: usize| w.map_or(1.0, |w| w[i]);
         // SSE = Σ wᵢeᵢ², the squared length of the √w-scaled residuals.
         let sse = dot_dd(&ls.residuals, &ls.residuals);
@@ -186,10 +202,10 @@ impl Fit {
         } else {
             sum_wy2
         };
-        let ss_basis = if design.has_intercept() { SsBasis::AboutMean } else { SsBasis::AboutZero };
-        let _ = ss_basis;
         if ssto == 0.0 {
-            return Err(EngineError::ConstantResponse { column: design.response_label() });
+            return Err(EngineError::ConstantResponse {
+                column: design.response_label(),
+            });
         }
         let ssr = (ssto - sse).max(0.0);
         let df_model = p - first;
@@ -209,7 +225,9 @@ impl Fit {
             }
             c
         };
-        let std_errors: Vec<f64> = (0..p).map(|j| covariance.get(j, j).max(0.0).sqrt()).collect();
+        let std_errors: Vec<f64> = (0..p)
+            .map(|j| covariance.get(j, j).max(0.0).sqrt())
+            .collect();
         let df = df_resid as f64;
         let (t_values, p_values): (Vec<Option<f64>>, Vec<Option<f64>>) = b
             .iter()
@@ -231,7 +249,11 @@ impl Fit {
                 return (None, None);
             }
             if exact {
-                return if ss > 0.0 { (Some(f64::INFINITY), None) } else { (None, None) };
+                return if ss > 0.0 {
+                    (Some(f64::INFINITY), None)
+                } else {
+                    (None, None)
+                };
             }
             let f = (ss / dfn as f64) / mse;
             (Some(f), Some(dist::f_sf(f, dfn as f64, df)))
@@ -248,7 +270,14 @@ impl Fit {
                 let ss = sum_dd(t.columns.clone().map(|k| effects[k] * effects[k]));
                 let dfn = t.columns.len();
                 let (f, pv) = f_test(ss, dfn);
-                AnovaRow { term: t.label.clone(), df: dfn, ss, ms: ss / dfn.max(1) as f64, f, p: pv }
+                AnovaRow {
+                    term: t.label.clone(),
+                    df: dfn,
+                    ss,
+                    ms: ss / dfn.max(1) as f64,
+                    f,
+                    p: pv,
+                }
             })
             .collect();
 
@@ -261,7 +290,13 @@ impl Fit {
                 let idx: Vec<usize> = t.columns.clone().collect();
                 let extra_ss = wald_quadratic(&unscaled_cov, &b, &idx).max(0.0);
                 let (f, pv) = f_test(extra_ss, idx.len());
-                PartialF { term: t.label.clone(), df: idx.len(), extra_ss, f, p: pv }
+                PartialF {
+                    term: t.label.clone(),
+                    df: idx.len(),
+                    extra_ss,
+                    f,
+                    p: pv,
+                }
             })
             .collect();
 
@@ -363,7 +398,12 @@ impl Fit {
     /// Confidence intervals `b ± t_{1−α/2, n−p}·se` at the given level.
     pub fn conf_int(&self, level: f64) -> Result<Vec<(f64, f64)>> {
         let q = self.t_critical(level)?;
-        Ok(self.coefficients.iter().zip(&self.std_errors).map(|(&b, &s)| (b - q * s, b + q * s)).collect())
+        Ok(self
+            .coefficients
+            .iter()
+            .zip(&self.std_errors)
+            .map(|(&b, &s)| (b - q * s, b + q * s))
+            .collect())
     }
 
     /// The covariance matrix of the coefficients, `MSE·(XᵀWX)⁻¹` (zero in an exact fit).
@@ -408,7 +448,11 @@ impl Fit {
 
     /// Which basis [`Fit::ssto`] uses.
     pub fn ss_basis(&self) -> SsBasis {
-        if self.design.has_intercept() { SsBasis::AboutMean } else { SsBasis::AboutZero }
+        if self.design.has_intercept() {
+            SsBasis::AboutMean
+        } else {
+            SsBasis::AboutZero
+        }
     }
 
     /// Model degrees of freedom (coefficients other than the intercept).
@@ -507,7 +551,12 @@ impl Fit {
     /// Predictions for new design rows (as built by [`Design::row_for_prediction`]), with the
     /// confidence interval of the mean and the prediction interval of a new observation. Under
     /// WLS, `weights` gives each new row's weight (1 when omitted).
-    pub fn predict(&self, rows: &Matrix, weights: Option<&[f64]>, level: f64) -> Result<Vec<Prediction>> {
+    pub fn predict(
+        &self,
+        rows: &Matrix,
+        weights: Option<&[f64]>,
+        level: f64,
+    ) -> Result<Vec<Prediction>> {
         let q = self.t_critical(level)?;
         let p = self.nparams();
         if rows.ncols() != p {
@@ -528,7 +577,10 @@ impl Fit {
                 });
             }
             if let Some(i) = w.iter().position(|v| !(v.is_finite() && *v > 0.0)) {
-                return Err(EngineError::BadWeight { row_key: row_key(i), value: w[i] });
+                return Err(EngineError::BadWeight {
+                    row_key: row_key(i),
+                    value: w[i],
+                });
             }
         }
         let mse = if self.exact { 0.0 } else { self.mse };
@@ -571,7 +623,11 @@ fn wald_quadratic(c: &Matrix, b: &[f64], idx: &[usize]) -> f64 {
     let k = idx.len();
     if k == 1 {
         let v = c.get(idx[0], idx[0]);
-        return if v > 0.0 { b[idx[0]] * b[idx[0]] / v } else { 0.0 };
+        return if v > 0.0 {
+            b[idx[0]] * b[idx[0]] / v
+        } else {
+            0.0
+        };
     }
     // Cholesky L Lᵀ = C_TT.
     let mut l = vec![0.0; k * k];

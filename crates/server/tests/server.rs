@@ -21,8 +21,8 @@ use wardcast::web::{Analysis, AppState, ColumnInfo, Glossary, router};
 use wardcast_contract::SCHEMA_VERSION;
 use wardcast_contract::cautions::standing_cautions;
 use wardcast_contract::fit::{
-    CoefficientDoc, DroppedRowDoc, FitDocument, Interval, LIKELIHOOD_CONVENTION, Likelihood, OverallF, SumsOfSquares,
-    TermTest,
+    CoefficientDoc, DroppedRowDoc, FitDocument, Interval, LIKELIHOOD_CONVENTION, Likelihood,
+    OverallF, SumsOfSquares, TermTest,
 };
 use wardcast_contract::numbers::Number;
 use wardcast_contract::spec::{ModelSpec, PredictorSpec, TransformSpec};
@@ -38,19 +38,37 @@ pub const NASTY: &str = "<script>\"'&";
 /// How that name must appear in HTML.
 pub const NASTY_ESCAPED: &str = "&#60;script&#62;&#34;&#39;&#38;";
 
-fn coefficient(term: &str, estimate: f64, se: f64, t: f64, p: f64, low: f64, high: f64) -> CoefficientDoc {
+fn coefficient(
+    term: &str,
+    estimate: f64,
+    se: f64,
+    t: f64,
+    p: f64,
+    low: f64,
+    high: f64,
+) -> CoefficientDoc {
     CoefficientDoc {
         term: term.into(),
         estimate,
         std_error: se,
         t_value: Number::Finite(t),
         p_value: Number::Finite(p),
-        interval: Interval { level: 0.95, low, high },
+        interval: Interval {
+            level: 0.95,
+            low,
+            high,
+        },
     }
 }
 
 fn test_row(term: &str, df: usize, ss: f64, f: f64, p: f64) -> TermTest {
-    TermTest { term: term.into(), df, sum_sq: ss, f: Number::Finite(f), p_value: Number::Finite(p) }
+    TermTest {
+        term: term.into(),
+        df,
+        sum_sq: ss,
+        f: Number::Finite(f),
+        p_value: Number::Finite(p),
+    }
 }
 
 /// A fit document shaped like the demo's: a plain predictor, a logged one, a categorical one
@@ -68,13 +86,20 @@ pub fn sample_fit(odd_column: &str, dropped_key: &str) -> FitDocument {
         transform: None,
         reference_level: Some("residential".into()),
     });
-    spec.predictors.push(PredictorSpec { column: odd_column.into(), transform: None, reference_level: None });
+    spec.predictors.push(PredictorSpec {
+        column: odd_column.into(),
+        transform: None,
+        reference_level: None,
+    });
     FitDocument {
         schema_version: SCHEMA_VERSION.into(),
         kind: "fit".into(),
         spec,
         rows_used: 62,
-        rows_dropped: vec![DroppedRowDoc { key: dropped_key.into(), reason: "missing value in vacancy_pct".into() }],
+        rows_dropped: vec![DroppedRowDoc {
+            key: dropped_key.into(),
+            reason: "missing value in vacancy_pct".into(),
+        }],
         coefficients: vec![
             coefficient("(intercept)", 12.5, 3.1, 4.03, 0.00017, 6.3, 18.7),
             coefficient("unemployment_pct", 2.25, 0.6, 3.75, 0.00042, 1.05, 3.45),
@@ -84,7 +109,12 @@ pub fn sample_fit(odd_column: &str, dropped_key: &str) -> FitDocument {
             coefficient(odd_column, 0.5, 0.2, 2.5, 0.015, 0.1, 0.9),
         ],
         covariance: vec![vec![0.0; 6]; 6],
-        sums_of_squares: SumsOfSquares { basis: "about_mean".into(), error: 900.0, regression: 2100.0, total: 3000.0 },
+        sums_of_squares: SumsOfSquares {
+            basis: "about_mean".into(),
+            error: 900.0,
+            regression: 2100.0,
+            total: 3000.0,
+        },
         df_model: 5,
         df_residual: 56,
         mse: 900.0 / 56.0,
@@ -125,8 +155,17 @@ pub fn sample_fit(odd_column: &str, dropped_key: &str) -> FitDocument {
 /// Labels and units like the demo's.
 pub fn sample_glossary(odd_column: &str) -> Glossary {
     Glossary::new("districts")
-        .with_column("assault_rate", ColumnInfo::new("assault rate", Some("assault incidents per 10,000 residents")))
-        .with_column("unemployment_pct", ColumnInfo::new("unemployment", Some("%")))
+        .with_column(
+            "assault_rate",
+            ColumnInfo::new(
+                "assault rate",
+                Some("assault incidents per 10,000 residents"),
+            ),
+        )
+        .with_column(
+            "unemployment_pct",
+            ColumnInfo::new("unemployment", Some("%")),
+        )
         .with_column("vacancy_pct", ColumnInfo::new("housing vacancy", Some("%")))
         .with_column("district_type", ColumnInfo::new("the district type", None))
         .with_column(odd_column, ColumnInfo::new(odd_column, None))
@@ -158,22 +197,36 @@ pub fn test_token() -> Token {
 
 /// The sample workspace shared on [`LAN`] with [`test_token`].
 pub fn shared_app() -> Router {
-    router(sample_state(), SecurityConfig::shared(PORT, LAN, test_token()))
+    router(
+        sample_state(),
+        SecurityConfig::shared(PORT, LAN, test_token()),
+    )
 }
 
 /// A GET with the local Host header.
 pub fn get(path: &str) -> Request<Body> {
-    Request::get(path).header(header::HOST, HOST).body(Body::empty()).expect("request")
+    Request::get(path)
+        .header(header::HOST, HOST)
+        .body(Body::empty())
+        .expect("request")
 }
 
 /// Sends one request through the router.
 pub async fn send(app: &Router, request: Request<Body>) -> Response<Body> {
-    app.clone().oneshot(request).await.expect("the router never fails")
+    app.clone()
+        .oneshot(request)
+        .await
+        .expect("the router never fails")
 }
 
 /// Collects a response body as text.
 pub async fn text(response: Response<Body>) -> String {
-    let bytes = response.into_body().collect().await.expect("body").to_bytes();
+    let bytes = response
+        .into_body()
+        .collect()
+        .await
+        .expect("body")
+        .to_bytes();
     String::from_utf8(bytes.to_vec()).expect("utf-8 body")
 }
 

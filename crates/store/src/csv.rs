@@ -206,6 +206,7 @@ pub(crate) fn sniff(text: &str, delimiter: Option<Delimiter>, decimal: DecimalCh
             let mut weak_detail: Option<String> = None;
             let mut any_split = false;
             let mut fault = None;
+            let mut plausible: Option<(Delimiter, usize, usize, usize)> = None;
             for d in Delimiter::ALL {
                 let (counts, f) = sample_counts(text, d.byte());
                 if fault.is_none() {
@@ -216,9 +217,15 @@ pub(crate) fn sniff(text: &str, delimiter: Option<Delimiter>, decimal: DecimalCh
                     any_split = true;
                 }
                 let consistent = counts.iter().all(|&(_, c)| c == first);
+                let matching = counts.iter().filter(|&&(_, c)| c == first).count();
                 if consistent && first > 1 {
                     if best.is_none_or(|(_, f)| first > f) {
                         best = Some((d, first));
+                    }
+                } else if first > 1 && matching * 2 >= counts.len() && best.is_none() {
+                    // Most lines agree with the header: the parse will name the rows that do not.
+                    if plausible.is_none_or(|(_, _, m, n)| matching * n > m * counts.len()) {
+                        plausible = Some((d, first, matching, counts.len()));
                     }
                 } else if first > 1 && detail.is_none() {
                     if let Some(&(at, c)) = counts.iter().find(|&&(_, c)| c != first) {
@@ -228,17 +235,25 @@ pub(crate) fn sniff(text: &str, delimiter: Option<Delimiter>, decimal: DecimalCh
                             line_of(text.as_bytes(), at)
                         ));
                     }
-                } else if first <= 1 && weak_detail.is_none() {
-                    if let Some(&(at, c)) = counts.iter().find(|&&(_, c)| c > 1) {
-                        weak_detail = Some(format!(
-                            "with {} the header has 1 field but line {} has {c}",
-                            d.name(),
-                            line_of(text.as_bytes(), at)
-                        ));
-                    }
+                } else if first <= 1
+                    && weak_detail.is_none()
+                    && let Some(&(at, c)) = counts.iter().find(|&&(_, c)| c > 1)
+                {
+                    weak_detail = Some(format!(
+                        "with {} the header has 1 field but line {} has {c}",
+                        d.name(),
+                        line_of(text.as_bytes(), at)
+                    ));
                 }
             }
+            if best.is_none()
+                && let Some((d, n, m, total)) = plausible
+            {
+                best = Some((d, n));
+                detail = Some(format!("sniffed: the header and {} of {} other sampled lines have {n} fields with a {}", m - 1, total - 1, d.name()));
+            }
             match best {
+                Some((d, _)) if plausible.is_some_and(|p| p.0 == d) => (d, detail.clone().unwrap_or_default()),
                 Some((d, n)) => (d, format!("sniffed: every sampled line has {n} fields with a {}", d.name())),
                 None if text.trim().is_empty() => return Err(StoreError::EmptyFile),
                 None if fault.is_some() && detail.is_none() && weak_detail.is_none() => {

@@ -113,7 +113,7 @@ pub enum StoreError {
         detail: String,
     },
     /// Some rows have a different number of fields from the header.
-    #[error("row {row} (line {line}) has {found} fields but the header has {expected}; {total} rows in all have a different number of fields")]
+    #[error("row {row} (line {line}) has {found} fields but the header has {expected}; {} a different number of fields", if *total == 1 { "it is the only row with".to_owned() } else { format!("{total} rows in all have") })]
     RaggedRows {
         /// The first such row (header = row 1).
         row: usize,

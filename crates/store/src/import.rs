@@ -26,6 +26,11 @@ use crate::infer::{self, CellClass, ClassCounts, ValueFacts};
 use crate::source::{RecordSource, Row};
 use crate::text::{self, Encoding};
 
+/// `1 row` / `2 rows`.
+pub(crate) fn count(n: usize, one: &str, many: &str) -> String {
+    if n == 1 { format!("1 {one}") } else { format!("{n} {many}") }
+}
+
 /// How many offending cells each problem lists.
 pub const EXAMPLES: usize = 20;
 
@@ -708,8 +713,13 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
         types.push(ty);
     }
 
-    // Pass 2: text columns.
+    // Pass 2: text columns. Their first-pass numbers are not needed.
     let text_cols: Vec<usize> = (0..ncols).filter(|&c| types[c] == ColumnType::Text).collect();
+    for p in parts.iter_mut() {
+        for &c in &text_cols {
+            p.cols[c].values = Vec::new();
+        }
+    }
     let drops: HashSet<usize> = options.drop_rows.iter().map(|d| d.row).collect();
     let mut text_chunks: Vec<Vec<StringChunked>> = vec![Vec::new(); ncols];
     if !text_cols.is_empty() {
@@ -769,8 +779,12 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
         let mut negative_total = 0usize;
         let role;
         if ty == ColumnType::Text {
-            let mut ca = StringChunked::from_iter_options(PlSmallStr::from_str(name), std::iter::empty::<Option<&str>>());
-            for chunk in text_chunks[c].drain(..) {
+            // One chunk per part, so every column has the same chunk layout.
+            let mut parts_iter = std::mem::take(&mut text_chunks[c]).into_iter();
+            let mut ca = parts_iter.next().unwrap_or_else(|| {
+                StringChunked::from_iter_options(PlSmallStr::from_str(name), std::iter::empty::<Option<&str>>())
+            });
+            for chunk in parts_iter {
                 ca.append_owned(chunk)?;
             }
             let mut distinct: HashSet<&str> = HashSet::new();
@@ -779,7 +793,10 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
             for (i, v) in ca.iter().enumerate() {
                 if let Some(v) = v {
                     count += 1;
-                    distinct.insert(v);
+                    // The key's distinct values are counted with the key checks below.
+                    if !is_key {
+                        distinct.insert(v);
+                    }
                     if first_value.is_none() {
                         first_value = Some((row_numbers[i], v));
                     }
@@ -834,9 +851,12 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
                     kind: ProblemKind::TextInNumeric,
                     column: name.clone(),
                     message: if accepted {
-                        format!("column {name:?} has {bad} cells that are not numbers; they are read as missing, as chosen")
+                        format!(
+                            "column {name:?} has {}; read as missing, as chosen",
+                            count(bad, "cell that is not a number", "cells that are not numbers")
+                        )
                     } else {
-                        format!("column {name:?} has {bad} cells that are not numbers")
+                        format!("column {name:?} has {}", count(bad, "cell that is not a number", "cells that are not numbers"))
                     },
                     total: bad,
                     examples: examples[c].clone(),
@@ -852,22 +872,28 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
                 problems.push(constant_problem(name, Some((first, value.as_str()))));
             }
             let series = if ty == ColumnType::Integer {
-                let mut ca = Int64Chunked::from_iter_options(PlSmallStr::from_str(name), std::iter::empty::<Option<i64>>());
-                for chunk in &chunks {
-                    // Integers have at most 15 digits, so the conversion is exact.
-                    ca.append_owned(Int64Chunked::from_iter_options(
+                // Integers have at most 15 digits, so the conversion is exact.
+                let build = |chunk: &Vec<f64>| {
+                    Int64Chunked::from_iter_options(
                         PlSmallStr::from_str(name),
                         chunk.iter().map(|v| (!v.is_nan()).then_some(*v as i64)),
-                    ))?;
+                    )
+                };
+                let mut ca = build(&chunks[0]);
+                for chunk in &chunks[1..] {
+                    ca.append_owned(build(chunk))?;
                 }
                 ca.into_series()
             } else {
-                let mut ca = Float64Chunked::from_iter_options(PlSmallStr::from_str(name), std::iter::empty::<Option<f64>>());
-                for chunk in &chunks {
-                    ca.append_owned(Float64Chunked::from_iter_options(
+                let build = |chunk: &Vec<f64>| {
+                    Float64Chunked::from_iter_options(
                         PlSmallStr::from_str(name),
                         chunk.iter().map(|v| (!v.is_nan()).then_some(*v)),
-                    ))?;
+                    )
+                };
+                let mut ca = build(&chunks[0]);
+                for chunk in &chunks[1..] {
+                    ca.append_owned(build(chunk))?;
                 }
                 ca.into_series()
             };
@@ -878,7 +904,11 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
             problems.push(Problem {
                 kind: ProblemKind::NegativeCount,
                 column: name.clone(),
-                message: format!("column {name:?} is a {} but has {negative_total} negative values", role.name()),
+                message: format!(
+                    "column {name:?} is a {} but has {}",
+                    role.name(),
+                    count(negative_total, "negative value", "negative values")
+                ),
                 total: negative_total,
                 examples: negatives.iter().map(|(row, v)| ProblemCell { row: *row, value: show(*v) }).collect(),
                 blocks_saving: true,
@@ -892,34 +922,46 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
     // Key checks.
     if let (Some(kc), Some(keys)) = (key, key_values.as_ref()) {
         let name = &header[kc];
+        let summary_index = kc;
         let mut blank_rows = Vec::new();
-        let mut seen: HashMap<&str, Vec<usize>> = HashMap::with_capacity(nrows);
+        // Occurrences per key; rows are collected only for keys seen more than once.
+        let mut seen: HashMap<&str, u32> = HashMap::with_capacity(nrows);
         for (i, v) in keys.iter().enumerate() {
             match v {
                 None => blank_rows.push(row_numbers[i]),
-                Some(k) => seen.entry(k).or_default().push(row_numbers[i]),
+                Some(k) => *seen.entry(k).or_default() += 1,
             }
         }
+        summaries[summary_index].distinct = Some(seen.len());
         if !blank_rows.is_empty() {
             problems.insert(0, Problem {
                 kind: ProblemKind::BlankKey,
                 column: name.clone(),
-                message: format!("{} rows have no key in column {name:?}", blank_rows.len()),
+                message: format!(
+                    "{} in column {name:?}",
+                    count(blank_rows.len(), "row has no key", "rows have no key")
+                ),
                 total: blank_rows.len(),
                 examples: blank_rows.iter().take(EXAMPLES).map(|&row| ProblemCell { row, value: String::new() }).collect(),
                 blocks_saving: true,
                 remedy: "drop those rows with a reason, fix the file, or choose another key column".into(),
             });
         }
-        let mut dup: Vec<(usize, &str)> =
-            seen.iter().filter(|(_, rows)| rows.len() > 1).flat_map(|(k, rows)| rows.iter().map(move |&r| (r, *k))).collect();
-        if !dup.is_empty() {
-            dup.sort_unstable();
-            let keys_repeated = seen.values().filter(|rows| rows.len() > 1).count();
+        let keys_repeated = seen.values().filter(|&&n| n > 1).count();
+        if keys_repeated > 0 {
+            let dup: Vec<(usize, &str)> = keys
+                .iter()
+                .enumerate()
+                .filter_map(|(i, v)| v.filter(|k| seen.get(k).is_some_and(|&n| n > 1)).map(|k| (row_numbers[i], k)))
+                .collect();
             problems.insert(0, Problem {
                 kind: ProblemKind::DuplicateKey,
                 column: name.clone(),
-                message: format!("{keys_repeated} keys in column {name:?} appear on more than one row ({} rows)", dup.len()),
+                message: format!(
+                    "{} in column {name:?} on more than one row ({} rows)",
+                    count(keys_repeated, "key appears", "keys appear"),
+                    dup.len()
+                ),
                 total: dup.len(),
                 examples: dup.iter().take(EXAMPLES).map(|&(row, k)| ProblemCell { row, value: k.to_owned() }).collect(),
                 blocks_saving: true,
@@ -940,9 +982,9 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
             kind: ProblemKind::Formula,
             column: header[c].clone(),
             message: format!(
-                "column {:?} has {} cells holding formulas; the values used are the results the spreadsheet last saved",
+                "column {:?} has {}; the values used are the results the spreadsheet last saved",
                 header[c],
-                cells.len()
+                count(cells.len(), "cell holding a formula", "cells holding formulas")
             ),
             total: cells.len(),
             examples: cells.iter().take(EXAMPLES).map(|f| ProblemCell { row: f.row, value: f.formula.clone() }).collect(),
@@ -964,7 +1006,10 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
 
     let mut notes = ctx.notes;
     if blanks > 0 {
-        notes.push(format!("{blanks} blank lines were skipped; they keep their place in the row numbering"));
+        notes.push(format!(
+            "{} skipped; blank lines keep their place in the row numbering",
+            count(blanks, "blank line was", "blank lines were")
+        ));
     }
     let frame = DataFrame::new(nrows, frame_cols)?;
     let can_save = key.is_some() && problems.iter().all(|p| !p.blocks_saving);

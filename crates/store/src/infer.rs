@@ -264,13 +264,20 @@ pub(crate) fn infer_role(name: &str, is_key: bool, facts: ValueFacts) -> (Column
     let words: Vec<&str> = n.split('_').filter(|w| !w.is_empty()).collect();
     let has = |list: &[&str]| words.iter().any(|w| list.contains(w));
     let whole = facts.column_type == ColumnType::Integer;
-    if has(&["rate", "per", "per10k", "per1000", "per100k", "per10000", "per100000"]) {
+    if has(&["rate", "rates"]) {
         return (ColumnRole::Rate, "the name says it is a rate".into());
+    }
+    if has(&["per"]) {
+        return (ColumnRole::Indicator, "the name says it is a per-unit measure: an indicator".into());
     }
     if has(&["population", "pop", "residents", "inhabitants", "households", "persons", "people"]) {
         return (ColumnRole::Population, "the name says it is a population".into());
     }
-    if has(&["count", "counts", "incidents", "cases", "calls", "events", "number", "num", "n"]) {
+    if has(&[
+        "count", "counts", "incidents", "cases", "calls", "events", "number", "num", "n", "assaults", "crimes",
+        "offences", "offenses", "injuries", "fires", "deaths", "arrests", "burglaries", "thefts", "collisions",
+        "overdoses",
+    ]) {
         return (ColumnRole::Count, "the name says it is a count".into());
     }
     if has(&["pct", "percent", "share", "proportion", "ratio", "index", "median", "mean", "avg", "average"]) {

@@ -27,9 +27,6 @@ pub(crate) struct Book {
 fn u16_at(b: &[u8], at: usize) -> Option<u64> {
     Some(u64::from(u16::from_le_bytes(b.get(at..at + 2)?.try_into().ok()?)))
 }
-fn u32_at(b: &[u8], at: usize) -> Option<u64> {
-    Some(u64::from(u32::from_le_bytes(b.get(at..at + 4)?.try_into().ok()?)))
-}
 fn u64_at(b: &[u8], at: usize) -> Option<u64> {
     Some(u64::from_le_bytes(b.get(at..at + 8)?.try_into().ok()?))
 }

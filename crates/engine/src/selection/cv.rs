@@ -119,7 +119,11 @@ impl Spread {
     fn of(v: &[f64]) -> Spread {
         let n = v.len() as f64;
         let mean = v.iter().sum::<f64>() / n;
-        let sd = if v.len() > 1 { (v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt() } else { 0.0 };
+        let sd = if v.len() > 1 {
+            (v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt()
+        } else {
+            0.0
+        };
         Spread {
             mean,
             sd,
@@ -281,7 +285,10 @@ pub fn make_folds(n: usize, opts: &CvOptions<'_>) -> Result<Vec<FoldAssignment>>
     match &opts.groups {
         None => {
             if k > n {
-                return Err(bad("folds", &format!("{k} folds cannot be made from {n} rows")));
+                return Err(bad(
+                    "folds",
+                    &format!("{k} folds cannot be made from {n} rows"),
+                ));
             }
             for repeat in 0..opts.repeats {
                 let mut perm: Vec<usize> = (0..n).collect();
@@ -290,7 +297,10 @@ pub fn make_folds(n: usize, opts: &CvOptions<'_>) -> Result<Vec<FoldAssignment>>
                 for (pos, &i) in perm.iter().enumerate() {
                     fold_of_row[i] = pos % k;
                 }
-                out.push(FoldAssignment { repeat, fold_of_row });
+                out.push(FoldAssignment {
+                    repeat,
+                    fold_of_row,
+                });
             }
         }
         Some(g) => {
@@ -314,7 +324,11 @@ pub fn make_folds(n: usize, opts: &CvOptions<'_>) -> Result<Vec<FoldAssignment>>
                 group_of_row.push(gi);
             }
             if sizes.len() < k {
-                return Err(EngineError::TooFewGroups { column: g.label.clone(), groups: sizes.len(), folds: k });
+                return Err(EngineError::TooFewGroups {
+                    column: g.label.clone(),
+                    groups: sizes.len(),
+                    folds: k,
+                });
             }
             for repeat in 0..opts.repeats {
                 let mut order: Vec<usize> = (0..sizes.len()).collect();
@@ -327,7 +341,10 @@ pub fn make_folds(n: usize, opts: &CvOptions<'_>) -> Result<Vec<FoldAssignment>>
                     fold_of_group[gi] = f;
                 }
                 let fold_of_row = group_of_row.iter().map(|&gi| fold_of_group[gi]).collect();
-                out.push(FoldAssignment { repeat, fold_of_row });
+                out.push(FoldAssignment {
+                    repeat,
+                    fold_of_row,
+                });
             }
         }
     }
@@ -335,14 +352,17 @@ pub fn make_folds(n: usize, opts: &CvOptions<'_>) -> Result<Vec<FoldAssignment>>
 }
 
 fn bad(option: &str, reason: &str) -> EngineError {
-    EngineError::BadSearchOption { option: option.to_owned(), reason: reason.to_owned() }
+    EngineError::BadSearchOption {
+        option: option.to_owned(),
+        reason: reason.to_owned(),
+    }
 }
 
 /// The inverse of a response transform, `None` outside its range.
 pub(crate) fn inverse(t: Transform, v: f64) -> Option<f64> {
     let out = match t {
         Transform::Log => v.exp(),
-        Transform::Power(l) if l == 0.0 => v.exp(),
+        Transform::Power(0.0) => v.exp(),
         Transform::Reciprocal => {
             if v == 0.0 {
                 return None;
@@ -389,16 +409,26 @@ struct Smearer {
 impl Smearer {
     fn new(t: Transform, resid: Vec<f64>) -> Smearer {
         let t = match t {
-            Transform::Power(l) if l == 0.0 => Transform::Log,
+            Transform::Power(0.0) => Transform::Log,
             t => t,
         };
         let n = resid.len() as f64;
         let (mean_exp, mean_e, mean_e2) = match t {
             Transform::Log => (resid.iter().map(|e| e.exp()).sum::<f64>() / n, 0.0, 0.0),
-            Transform::Sqrt => (0.0, resid.iter().sum::<f64>() / n, resid.iter().map(|e| e * e).sum::<f64>() / n),
+            Transform::Sqrt => (
+                0.0,
+                resid.iter().sum::<f64>() / n,
+                resid.iter().map(|e| e * e).sum::<f64>() / n,
+            ),
             _ => (0.0, 0.0, 0.0),
         };
-        Smearer { t, resid, mean_exp, mean_e, mean_e2 }
+        Smearer {
+            t,
+            resid,
+            mean_exp,
+            mean_e,
+            mean_e2,
+        }
     }
 
     fn predict(&self, eta: f64) -> Option<f64> {
@@ -431,7 +461,11 @@ impl Smearer {
 /// As [`make_folds`]; [`EngineError::BadSearchOption`] when a training set has no more rows than
 /// a model has coefficients, or the original response cannot be recovered from the transform;
 /// [`EngineError::Cancelled`] when the cancel flag is raised.
-pub fn cross_validate(cands: &Candidates, models: &[Vec<usize>], opts: &CvOptions<'_>) -> Result<CvResult> {
+pub fn cross_validate(
+    cands: &Candidates,
+    models: &[Vec<usize>],
+    opts: &CvOptions<'_>,
+) -> Result<CvResult> {
     let n = cands.nrows();
     let assignments = make_folds(n, opts)?;
     let k = opts.folds;
@@ -444,13 +478,24 @@ pub fn cross_validate(cands: &Candidates, models: &[Vec<usize>], opts: &CvOption
             .iter()
             .map(|&v| inverse(t, v))
             .collect::<Option<Vec<f64>>>()
-            .ok_or_else(|| bad("response transform", "the original response cannot be recovered from the transformed values"))?,
+            .ok_or_else(|| {
+                bad(
+                    "response transform",
+                    "the original response cannot be recovered from the transformed values",
+                )
+            })?,
     };
     let mut union: Vec<usize> = models.iter().flatten().copied().collect();
     union.sort_unstable();
     union.dedup();
     if let Some(&t) = union.iter().find(|&&t| t >= cands.terms().len()) {
-        return Err(bad("models", &format!("there is no candidate number {t}; there are {}", cands.terms().len())));
+        return Err(bad(
+            "models",
+            &format!(
+                "there is no candidate number {t}; there are {}",
+                cands.terms().len()
+            ),
+        ));
     }
     let max_params = models.iter().map(|m| cands.params_of(m)).max().unwrap_or(0);
     let mut out: Vec<CvModel> = models
@@ -493,10 +538,10 @@ pub fn cross_validate(cands: &Candidates, models: &[Vec<usize>], opts: &CvOption
             let train_mean = train.iter().map(|&i| wt(i) * y_orig[i]).sum::<f64>() / tw;
             let fac = Factored::new(cands, &union, Some(&train));
             for (mi, terms) in models.iter().enumerate() {
-                if let Some(c) = opts.cancel {
-                    if c.load(Ordering::Relaxed) {
-                        return Err(EngineError::Cancelled);
-                    }
+                if let Some(c) = opts.cancel
+                    && c.load(Ordering::Relaxed)
+                {
+                    return Err(EngineError::Cancelled);
                 }
                 let (beta, resid, deficient) = train_fit(cands, &fac, terms, &opts.qr);
                 if deficient {
@@ -531,7 +576,11 @@ pub fn cross_validate(cands: &Candidates, models: &[Vec<usize>], opts: &CvOption
             let ws = wsum[mi].max(f64::MIN_POSITIVE);
             out[mi].rmse.push((sse[mi] / ws).sqrt());
             out[mi].mae.push(sae[mi] / ws);
-            out[mi].r2.push(if sst[mi] > 0.0 { 1.0 - sse[mi] / sst[mi] } else { 0.0 });
+            out[mi].r2.push(if sst[mi] > 0.0 {
+                1.0 - sse[mi] / sst[mi]
+            } else {
+                0.0
+            });
         }
     }
     let mut notes = Vec::new();
@@ -565,7 +614,12 @@ pub fn cross_validate(cands: &Candidates, models: &[Vec<usize>], opts: &CvOption
 
 /// Fits a model on the training rows: coefficients in model-matrix order (aliased columns get
 /// zero, as in the core's QR), raw training residuals, and whether the fit was rank deficient.
-fn train_fit(cands: &Candidates, fac: &Factored, terms: &[usize], qr: &QrOptions) -> (Vec<f64>, Vec<f64>, bool) {
+fn train_fit(
+    cands: &Candidates,
+    fac: &Factored,
+    terms: &[usize],
+    qr: &QrOptions,
+) -> (Vec<f64>, Vec<f64>, bool) {
     let all = fac.model_positions(cands, terms);
     let mut keep: Vec<usize> = (0..all.len()).collect();
     let mut deficient = false;
@@ -586,7 +640,7 @@ fn train_fit(cands: &Candidates, fac: &Factored, terms: &[usize], qr: &QrOptions
     let mut beta = vec![0.0; all.len()];
     match factor {
         Some((mp, f)) => {
-            let (s, _) = fac.solve(cands, &mp, &f);
+            let (s, _) = fac.solve(&mp, &f);
             for (b, &j) in s.beta.iter().zip(&keep) {
                 beta[j] = *b;
             }

@@ -57,13 +57,22 @@ struct Board {
 
 impl Board {
     fn new(top: usize) -> Self {
-        Board { top, his: Vec::with_capacity(top + 1), pool: Vec::new(), next_compact: 4 * top + 32 }
+        Board {
+            top,
+            his: Vec::with_capacity(top + 1),
+            pool: Vec::new(),
+            next_compact: 4 * top + 32,
+        }
     }
 
     /// The current threshold: no model whose `RSS − e` exceeds it can be among the best `top`.
     #[inline]
     fn threshold(&self) -> f64 {
-        if self.his.len() < self.top { f64::INFINITY } else { self.his[self.top - 1] }
+        if self.his.len() < self.top {
+            f64::INFINITY
+        } else {
+            self.his[self.top - 1]
+        }
     }
 
     #[inline]
@@ -89,7 +98,8 @@ impl Board {
     fn finish(mut self) -> Vec<PoolEntry> {
         let t = self.threshold();
         self.pool.retain(|e| e.rss - e.err <= t);
-        self.pool.sort_by(|a, b| (a.rss - a.err).total_cmp(&(b.rss - b.err)));
+        self.pool
+            .sort_by(|a, b| (a.rss - a.err).total_cmp(&(b.rss - b.err)));
         self.pool
     }
 }
@@ -191,7 +201,14 @@ pub(crate) fn householder_r(a: &mut [f64], n: usize, c: usize) -> Vec<f64> {
 /// Forms a child factor: the trailing block of the `c × c` factor `r` from column `start`, without
 /// its first `w` columns, re-triangularised by Householder reflections of length `w + 1`. Writes
 /// the `cc × cc` result (`cc = c − start − w`) into `out`.
-pub(crate) fn drop_block(r: &[f64], c: usize, start: usize, w: usize, tmp: &mut Vec<f64>, out: &mut [f64]) {
+pub(crate) fn drop_block(
+    r: &[f64],
+    c: usize,
+    start: usize,
+    w: usize,
+    tmp: &mut Vec<f64>,
+    out: &mut [f64],
+) {
     let cc = c - start - w;
     let rows = cc + w;
     tmp.clear();
@@ -199,12 +216,16 @@ pub(crate) fn drop_block(r: &[f64], c: usize, start: usize, w: usize, tmp: &mut 
     for j in 0..cc {
         let src_col = start + w + j;
         let nz = w + j + 1;
-        tmp[j * rows..j * rows + nz].copy_from_slice(&r[src_col * c + start..src_col * c + start + nz]);
+        tmp[j * rows..j * rows + nz]
+            .copy_from_slice(&r[src_col * c + start..src_col * c + start + nz]);
     }
     for j in 0..cc {
         let base = j * rows;
         let x0 = tmp[base + j];
-        let s: f64 = tmp[base + j + 1..base + j + 1 + w].iter().map(|v| v * v).sum();
+        let s: f64 = tmp[base + j + 1..base + j + 1 + w]
+            .iter()
+            .map(|v| v * v)
+            .sum();
         if s == 0.0 {
             continue;
         }
@@ -226,16 +247,25 @@ pub(crate) fn drop_block(r: &[f64], c: usize, start: usize, w: usize, tmp: &mut 
             }
         }
         tmp[base + j] = alpha;
-        tmp[base + j + 1..base + j + 1 + w].iter_mut().for_each(|v| *v = 0.0);
+        tmp[base + j + 1..base + j + 1 + w]
+            .iter_mut()
+            .for_each(|v| *v = 0.0);
     }
     for j in 0..cc {
         out[j * cc..j * cc + j + 1].copy_from_slice(&tmp[j * rows..j * rows + j + 1]);
-        out[j * cc + j + 1..(j + 1) * cc].iter_mut().for_each(|v| *v = 0.0);
+        out[j * cc + j + 1..(j + 1) * cc]
+            .iter_mut()
+            .for_each(|v| *v = 0.0);
     }
 }
 
 /// Weighted, centred (with an intercept) copy of a column and its raw weighted length.
-fn prepared(col: &[f64], sw: Option<&[f64]>, w: Option<&[f64]>, intercept: bool) -> (Vec<f64>, f64) {
+fn prepared(
+    col: &[f64],
+    sw: Option<&[f64]>,
+    w: Option<&[f64]>,
+    intercept: bool,
+) -> (Vec<f64>, f64) {
     let raw: Vec<f64> = match sw {
         Some(s) => col.iter().zip(s).map(|(a, b)| a * b).collect(),
         None => col.to_vec(),
@@ -268,7 +298,12 @@ impl FastPath {
     /// Builds the root factor for the free terms `free` (candidate indices) with `forced` terms
     /// projected out, and orders the free terms by how much the full model's RSS rises when each
     /// is dropped (largest first), which makes the bounds bite early.
-    pub(crate) fn new(cands: &Candidates, forced: &[usize], free: &[usize], rank_tolerance: f64) -> Result<FastPath> {
+    pub(crate) fn new(
+        cands: &Candidates,
+        forced: &[usize],
+        free: &[usize],
+        rank_tolerance: f64,
+    ) -> Result<FastPath> {
         let n = cands.nrows();
         let w = cands.weights();
         let sw: Option<Vec<f64>> = w.map(|w| w.iter().map(|v| v.sqrt()).collect());
@@ -303,7 +338,9 @@ impl FastPath {
         }
         let (ylen, _) = push(&mut a, cands.y());
         if !(ylen > 0.0 && ylen.is_finite()) {
-            return Err(EngineError::ConstantResponse { column: cands.response_label().to_owned() });
+            return Err(EngineError::ConstantResponse {
+                column: cands.response_label().to_owned(),
+            });
         }
         tol.push(0.0);
         let r_all = householder_r(&mut a, n, ctot);
@@ -389,9 +426,9 @@ impl FastPath {
     ///
     /// Householder and Givens updates are backward stable: the computed factor is exact for
     /// columns perturbed by about `ε‖x‖` with `ε` a modest multiple of the rounding unit
-    /// (Higham 2002, *Accuracy and Stability of Numerical Algorithms*, §19.3). For unit-length
+    /// (Higham 2002, *Accuracy and Stability of Numerical Algorithms*, §19.3, section from memory). For unit-length
     /// columns the first-order change of the residual sum of squares is then at most
-    /// `2ε‖r‖κ + (εκ)²` (Golub & Van Loan 2013, §5.3.8), with `κ` the condition number of the
+    /// `2ε‖r‖κ + (εκ)²` (Golub & Van Loan 2013, §5.3, section from memory), with `κ` the condition number of the
     /// model's columns. `κ` is estimated by `√p / d_min`, `d_min` the smallest remaining length
     /// of a column along the tree path (every remaining length is at least the smallest singular
     /// value), times the largest ratio of a raw to a centred column length, which covers the
@@ -444,7 +481,17 @@ impl FastPath {
         tree.offer(p, c - 1, full_mask, rss, ratio, mind);
         if p > 0 {
             let all: Vec<usize> = (0..p).collect();
-            tree.visit(0, &self.root, c, &all, 0, 0, self.forced_ratio, self.forced_mind, full_mask);
+            tree.visit(
+                0,
+                &self.root,
+                c,
+                &all,
+                0,
+                0,
+                self.forced_ratio,
+                self.forced_mind,
+                full_mask,
+            );
         }
         if let Some(f) = s.progress {
             f(1.0);
@@ -506,7 +553,15 @@ fn binom(n: usize, k: usize) -> f64 {
 impl Tree<'_> {
     /// Records one computed model and returns its lower bound `RSS − e`.
     #[inline]
-    fn offer(&mut self, free: usize, cols: usize, mask: u64, rss: f64, ratio: f64, mind: f64) -> f64 {
+    fn offer(
+        &mut self,
+        free: usize,
+        cols: usize,
+        mask: u64,
+        rss: f64,
+        ratio: f64,
+        mind: f64,
+    ) -> f64 {
         self.evaluated += 1;
         self.resolved += 1.0;
         let params = self.fp.base_params + cols;
@@ -537,10 +592,10 @@ impl Tree<'_> {
         if let Some(f) = self.progress {
             f((self.resolved / self.total).min(1.0));
         }
-        if let Some(c) = self.cancel {
-            if c.load(Ordering::Relaxed) {
-                self.cancelled = true;
-            }
+        if let Some(c) = self.cancel
+            && c.load(Ordering::Relaxed)
+        {
+            self.cancelled = true;
         }
     }
 
@@ -571,7 +626,11 @@ impl Tree<'_> {
             for i in 0..fp.widths[q] {
                 let col = fp.col_off[q] + i;
                 let j = rat.len();
-                rat.push((r[j * c + j].abs() / fp.col_tol[col], r[j * c + j].abs(), col));
+                rat.push((
+                    r[j * c + j].abs() / fp.col_tol[col],
+                    r[j * c + j].abs(),
+                    col,
+                ));
             }
         }
         let mut buf = std::mem::take(&mut self.arena[depth]);
@@ -582,8 +641,8 @@ impl Tree<'_> {
         let mut start = 0;
         let mut pre_ratio = k_ratio;
         let mut pre_mind = k_mind;
-        for t in 0..m {
-            let w = fp.widths[free[t]];
+        for &q in free {
+            let w = fp.widths[q];
             let cc = c - start - w;
             let off = buf.len();
             buf.resize(off + cc * cc, 0.0);
@@ -600,9 +659,16 @@ impl Tree<'_> {
                 }
             }
             let rss = out[cc * cc - 1].powi(2);
-            let mask = l_mask & !(1u64 << free[t]);
+            let mask = l_mask & !(1u64 << q);
             let lo = self.offer(k_count + m - 1, k_cols + c - 1 - w, mask, rss, ratio, mind);
-            kids.push(Kid { off, cc, lo, k_ratio: pre_ratio, k_mind: pre_mind, k_cols: k_cols + start });
+            kids.push(Kid {
+                off,
+                cc,
+                lo,
+                k_ratio: pre_ratio,
+                k_mind: pre_mind,
+                k_cols: k_cols + start,
+            });
             for &(rt, d, _) in &rat[start..start + w] {
                 pre_ratio = pre_ratio.min(rt);
                 if rt > 1.0 {
@@ -643,7 +709,17 @@ impl Tree<'_> {
                     if live {
                         let child = &buf[kid.off..kid.off + kid.cc * kid.cc];
                         let mask = l_mask & !(1u64 << free[t]);
-                        self.visit(depth + 1, child, kid.cc, &free[t + 1..], k_count + t, kid.k_cols, kid.k_ratio, kid.k_mind, mask);
+                        self.visit(
+                            depth + 1,
+                            child,
+                            kid.cc,
+                            &free[t + 1..],
+                            k_count + t,
+                            kid.k_cols,
+                            kid.k_ratio,
+                            kid.k_mind,
+                            mask,
+                        );
                     } else {
                         self.pruned += (sub.exp2() - 1.0) as u64;
                         self.resolved += sub.exp2() - 1.0;

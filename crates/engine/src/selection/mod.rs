@@ -21,10 +21,15 @@ pub mod subsets;
 
 pub use candidates::{CandidateTerm, Candidates};
 pub use compare::{
-    drop_one, partial_f_test, recommend, Criterion, DropOneOptions, DropOneRow, DropOneTable, PartialFTest, Pick, Recommendation,
+    Criterion, DropOneOptions, DropOneRow, DropOneTable, PartialFTest, Pick, Recommendation,
+    drop_one, partial_f_test, recommend,
 };
-pub use cv::{cross_validate, loo_rmse, make_folds, GroupColumn, CvModel, CvOptions, CvResult, FoldAssignment, Spread};
+pub use cv::{
+    CvModel, CvOptions, CvResult, FoldAssignment, GroupColumn, Spread, cross_validate, loo_rmse,
+    make_folds,
+};
 pub use subsets::{
-    best_subsets, rank_with_ties, AliasedModel, CpReference, SearchCounts, SearchMethod, SearchOptions, SizeBest, SubsetModel,
-    SubsetSearch, EXHAUSTIVE_LIMIT, MAX_CANDIDATES, NOTE_AIC_SCALE, NOTE_OPTIMISTIC_P, TIE_TOLERANCE,
+    AliasedModel, CpReference, EXHAUSTIVE_LIMIT, MAX_CANDIDATES, NOTE_AIC_SCALE, NOTE_OPTIMISTIC_P,
+    SearchCounts, SearchMethod, SearchOptions, SizeBest, Statistics, SubsetModel, SubsetSearch,
+    TIE_TOLERANCE, best_subsets, rank_with_ties,
 };

@@ -8,14 +8,14 @@
 //! order, a column set aside as aliased when its remaining length is at most the rank
 //! tolerance, exactly the rule of [`crate::linalg::PivotedQr`] — yields the triangular factor and
 //! the rank decision of the model's own QR at a cost independent of the row count (Golub & Van
-//! Loan 2013, §6.5.2 on QR updating after column deletion). Coefficients come from that factor;
+//! Loan 2013, §6.5 on QR updating after column deletion, section from memory). Coefficients come from that factor;
 //! the residuals `r = W^½(y − X_Sβ)` are then computed from the data in double-double
 //! arithmetic and the coefficients polished by corrected semi-normal equation steps
 //! `δ = R⁻¹R⁻ᵀ X_SᵀW^½ r` while the residual sum of squares falls (Björck 1987, "Stability
 //! analysis of the method of seminormal equations", Linear Algebra Appl. 88/89, 31–48). Leverages
 //! are the squared row lengths of `U = W^½X_S R⁻¹`, the model's thin orthonormal factor.
 
-use crate::linalg::{dot_dd, two_prod, two_sum, QrOptions};
+use crate::linalg::{QrOptions, two_sum};
 
 use super::candidates::{AliasedRefit, Candidates, Refit};
 use super::fastpath::householder_r;
@@ -26,11 +26,11 @@ pub(crate) struct Factored {
     rows: Vec<usize>,
     /// `√w` of each used row (1 without weights).
     sw: Vec<f64>,
-    /// Design columns of the factor: `None` is the intercept, `Some(j)` candidate column `j`.
-    cols: Vec<Option<usize>>,
     /// Position of each candidate column in `cols` (`usize::MAX` when absent).
     pos: Vec<usize>,
-    /// `R` of `[W^½X_cols, W^½y]`, order `c = cols.len() + 1`, column-major.
+    /// `[W^½X_cols, W^½y]`, `n × c` column-major.
+    data: Vec<f64>,
+    /// `R` of `data`, order `c = cols.len() + 1`, column-major.
     r: Vec<f64>,
     c: usize,
 }
@@ -44,6 +44,9 @@ pub(crate) struct ModelFactor {
     k: usize,
     /// `Qᵀ` applied to the factor's response column, first `k` entries.
     qty: Vec<f64>,
+    /// The residual sum of squares read off the factor (the squared length of the rest of
+    /// `Qᵀ` applied to the response column).
+    pub sse: f64,
 }
 
 /// A solved model.
@@ -92,8 +95,21 @@ impl Factored {
         }
         let y = cands.y();
         a.extend(rows.iter().zip(&sw).map(|(&i, s)| y[i] * s));
+        let data = a.clone();
         let r = householder_r(&mut a, n, c);
-        Factored { rows, sw, cols, pos, r, c }
+        Factored {
+            rows,
+            sw,
+            pos,
+            data,
+            r,
+            c,
+        }
+    }
+
+    /// The rows used.
+    pub(crate) fn rows(&self) -> &[usize] {
+        &self.rows
     }
 
     /// `√w` of each row used.
@@ -111,9 +127,9 @@ impl Factored {
     ) -> Result<Refit, AliasedRefit> {
         let mp = self.model_positions(cands, terms);
         if mp.is_empty() {
-            let y: Vec<f64> = self.rows.iter().zip(&self.sw).map(|(&i, s)| cands.y()[i] * s).collect();
+            let y = self.column(self.c - 1).to_vec();
             return Ok(Refit {
-                sse: dot_dd(&y, &y),
+                sse: sum_sq_dd(&y),
                 params: 0,
                 weighted_residuals: y,
                 leverages: leverages.then(|| vec![0.0; self.rows.len()]),
@@ -122,9 +138,14 @@ impl Factored {
         match self.factor_model(&mp, qr) {
             Err(pos) => Err(cands.alias_explanation(terms, &self.rows, pos)),
             Ok(f) => {
-                let (s, a) = self.solve(cands, &mp, &f);
+                let (s, a) = self.solve(&mp, &f);
                 let h = leverages.then(|| self.leverages(&f, &a));
-                Ok(Refit { sse: s.sse, params: mp.len(), weighted_residuals: s.residuals, leverages: h })
+                Ok(Refit {
+                    sse: s.sse,
+                    params: mp.len(),
+                    weighted_residuals: s.residuals,
+                    leverages: h,
+                })
             }
         }
     }
@@ -153,7 +174,11 @@ impl Factored {
         for &p in mp {
             let col = &self.r[p * c..p * c + c];
             let len = col.iter().map(|v| v * v).sum::<f64>().sqrt();
-            let s = if len > 0.0 && len.is_finite() { len } else { 1.0 };
+            let s = if len > 0.0 && len.is_finite() {
+                len
+            } else {
+                1.0
+            };
             scale.push(s);
             m.extend(col.iter().map(|v| v / s));
         }
@@ -166,7 +191,11 @@ impl Factored {
         let rows = c;
         for step in 0..k {
             let col = &m[step * rows..(step + 1) * rows];
-            let len = if step < rows { col[step..].iter().map(|v| v * v).sum::<f64>().sqrt() } else { 0.0 };
+            let len = if step < rows {
+                col[step..].iter().map(|v| v * v).sum::<f64>().sqrt()
+            } else {
+                0.0
+            };
             if len <= tol {
                 return Err(step);
             }
@@ -185,7 +214,9 @@ impl Factored {
                 }
             }
             m[step * rows + step] = alpha;
-            m[step * rows + step + 1..(step + 1) * rows].iter_mut().for_each(|a| *a = 0.0);
+            m[step * rows + step + 1..(step + 1) * rows]
+                .iter_mut()
+                .for_each(|a| *a = 0.0);
         }
         let mut r = vec![0.0; k * k];
         for j in 0..k {
@@ -194,101 +225,154 @@ impl Factored {
             }
         }
         let qty = m[k * rows..k * rows + k].to_vec();
-        Ok(ModelFactor { scale, r, k, qty })
+        let sse = sum_sq_dd(&m[k * rows + k..(k + 1) * rows]);
+        Ok(ModelFactor {
+            scale,
+            r,
+            k,
+            qty,
+            sse,
+        })
     }
 
-    /// The weighted data column at factor position `p`.
-    fn column(&self, cands: &Candidates, p: usize) -> Vec<f64> {
-        match self.cols[p] {
-            None => self.sw.clone(),
-            Some(j) => {
-                let x = cands.x().column(j);
-                self.rows.iter().zip(&self.sw).map(|(&i, s)| x[i] * s).collect()
-            }
-        }
+    /// The weighted data column at factor position `p` (`c − 1` is the response).
+    fn column(&self, p: usize) -> &[f64] {
+        let n = self.rows.len();
+        &self.data[p * n..(p + 1) * n]
     }
 
     /// Solves the model and computes its residuals from the data (see the module notes).
-    pub(crate) fn solve(&self, cands: &Candidates, mp: &[usize], f: &ModelFactor) -> (Solved, Vec<Vec<f64>>) {
+    /// Returns the solution and the model's data columns (for the leverages).
+    pub(crate) fn solve<'a>(&'a self, mp: &[usize], f: &ModelFactor) -> (Solved, Vec<&'a [f64]>) {
         let k = f.k;
-        let n = self.rows.len();
-        let y: Vec<f64> = self.rows.iter().zip(&self.sw).map(|(&i, s)| cands.y()[i] * s).collect();
-        // Scaled, data-level model columns in model order.
-        let a: Vec<Vec<f64>> = mp
-            .iter()
-            .zip(&f.scale)
-            .map(|(&p, &s)| self.column(cands, p).into_iter().map(|v| v / s).collect())
-            .collect();
+        let y = self.column(self.c - 1);
+        let x: Vec<&[f64]> = mp.iter().map(|&p| self.column(p)).collect();
+        let unscale =
+            |z: &[f64]| -> Vec<f64> { z.iter().zip(&f.scale).map(|(a, b)| a / b).collect() };
         let mut z = f.back(&f.qty);
-        let residual = |z: &[f64]| -> Vec<f64> {
-            (0..n)
-                .map(|i| {
-                    let (mut hi, mut lo) = (y[i], 0.0);
-                    for (j, col) in a.iter().enumerate() {
-                        let (p, ep) = two_prod(-col[i], z[j]);
-                        let (s, es) = two_sum(hi, p);
-                        hi = s;
-                        lo += ep + es;
-                    }
-                    hi + lo
-                })
-                .collect()
-        };
-        let mut r = residual(&z);
-        let mut sse = dot_dd(&r, &r);
-        for _ in 0..3 {
-            if k == 0 {
-                break;
-            }
-            // δ = R⁻¹R⁻ᵀ Aᵀr.
-            let g: Vec<f64> = a.iter().map(|col| dot_dd(col, &r)).collect();
-            let h = f.forward_t(&g);
-            let d = f.back(&h);
-            let zn: Vec<f64> = z.iter().zip(&d).map(|(a, b)| a + b).collect();
-            let rn = residual(&zn);
-            let sn = dot_dd(&rn, &rn);
-            if sn < sse {
-                let small = d.iter().map(|v| v.abs()).fold(0.0, f64::max)
-                    <= 4.0 * f64::EPSILON * z.iter().map(|v| v.abs()).fold(0.0, f64::max);
-                z = zn;
-                r = rn;
-                sse = sn;
-                if small {
-                    break;
+        let mut beta = unscale(&z);
+        let mut r = residual_dd(y, &x, &beta);
+        let mut sse = sum_sq_dd(&r);
+        // One corrected semi-normal step, kept only if it lowers the residual sum of squares.
+        if k > 0 {
+            let g: Vec<f64> = x
+                .iter()
+                .zip(&f.scale)
+                .map(|(col, s)| col.iter().zip(&r).map(|(a, e)| a * e).sum::<f64>() / s)
+                .collect();
+            let d = f.back(&f.forward_t(&g));
+            let zmax = z.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
+            let dmax = d.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
+            // A correction at rounding level changes nothing worth a second pass.
+            if dmax > 64.0 * f64::EPSILON * zmax {
+                let zn: Vec<f64> = z.iter().zip(&d).map(|(a, b)| a + b).collect();
+                let bn = unscale(&zn);
+                let rn = residual_dd(y, &x, &bn);
+                let sn = sum_sq_dd(&rn);
+                if sn < sse {
+                    z = zn;
+                    beta = bn;
+                    r = rn;
+                    sse = sn;
                 }
-            } else {
-                break;
             }
         }
-        let beta: Vec<f64> = z.iter().zip(&f.scale).map(|(a, b)| a / b).collect();
-        (Solved { beta, residuals: r, sse }, a)
+        let _ = z;
+        (
+            Solved {
+                beta,
+                residuals: r,
+                sse,
+            },
+            x,
+        )
     }
 
-    /// Leverages: squared row lengths of `U = A R⁻¹` (A the scaled model columns).
-    pub(crate) fn leverages(&self, f: &ModelFactor, a: &[Vec<f64>]) -> Vec<f64> {
+    /// Leverages: squared row lengths of `U = A R⁻¹` (A the scaled model columns), by forward
+    /// substitution `Rᵀuᵢ = aᵢ` on blocks of rows (the inner loops run along the block, so they
+    /// vectorise).
+    pub(crate) fn leverages(&self, f: &ModelFactor, a: &[&[f64]]) -> Vec<f64> {
+        const BLOCK: usize = 256;
         let n = self.rows.len();
         let k = f.k;
-        let mut u: Vec<Vec<f64>> = Vec::with_capacity(k);
         let mut h = vec![0.0; n];
-        for j in 0..k {
-            let mut col = a[j].clone();
-            for (l, ul) in u.iter().enumerate() {
-                let rl = f.r[j * k + l];
-                if rl != 0.0 {
-                    for (c, x) in col.iter_mut().zip(ul) {
-                        *c -= rl * x;
+        let mut u = vec![0.0; k * BLOCK];
+        let mut i0 = 0;
+        while i0 < n {
+            let b = BLOCK.min(n - i0);
+            let hb = &mut h[i0..i0 + b];
+            for (j, aj) in a.iter().enumerate().take(k) {
+                let (done, rest) = u.split_at_mut(j * BLOCK);
+                let uj = &mut rest[..b];
+                let inv_s = 1.0 / f.scale[j];
+                for (x, v) in uj.iter_mut().zip(&aj[i0..i0 + b]) {
+                    *x = v * inv_s;
+                }
+                for l in 0..j {
+                    let rl = f.r[j * k + l];
+                    if rl != 0.0 {
+                        for (x, y) in uj.iter_mut().zip(&done[l * BLOCK..l * BLOCK + b]) {
+                            *x -= rl * y;
+                        }
                     }
                 }
+                let inv = 1.0 / f.r[j * k + j];
+                for (x, hh) in uj.iter_mut().zip(hb.iter_mut()) {
+                    *x *= inv;
+                    *hh += *x * *x;
+                }
             }
-            let d = f.r[j * k + j];
-            for (c, hi) in col.iter_mut().zip(h.iter_mut()) {
-                *c /= d;
-                *hi += *c * *c;
-            }
-            u.push(col);
+            i0 += b;
         }
         h
     }
+}
+
+/// Veltkamp's split of a double into two halves of 26 bits (Dekker 1971).
+#[inline]
+fn split(a: f64) -> (f64, f64) {
+    let c = 134_217_729.0 * a;
+    let hi = c - (c - a);
+    (hi, a - hi)
+}
+
+/// Dekker's error-free product `a·b = p + e` without a fused multiply-add (Dekker 1971, "A
+/// floating-point technique for extending the available precision", Numer. Math. 18, 224–242),
+/// which keeps the loop vectorisable on targets without a hardware FMA in their baseline.
+#[inline]
+fn two_prod_dekker(a: f64, b: f64) -> (f64, f64) {
+    let p = a * b;
+    let (ah, al) = split(a);
+    let (bh, bl) = split(b);
+    (p, ((ah * bh - p) + ah * bl + al * bh) + al * bl)
+}
+
+/// `y − Az` for column vectors `A`, each row accumulated in double-double arithmetic.
+fn residual_dd(y: &[f64], a: &[&[f64]], z: &[f64]) -> Vec<f64> {
+    let mut hi = y.to_vec();
+    let mut lo = vec![0.0; y.len()];
+    for (col, &zj) in a.iter().zip(z) {
+        let nz = -zj;
+        for ((h, l), &x) in hi.iter_mut().zip(lo.iter_mut()).zip(col.iter()) {
+            let (p, ep) = two_prod_dekker(x, nz);
+            let (s, es) = two_sum(*h, p);
+            *h = s;
+            *l += ep + es;
+        }
+    }
+    hi.iter().zip(&lo).map(|(h, l)| h + l).collect()
+}
+
+/// `Σ rᵢ²` in double-double arithmetic.
+pub(crate) fn sum_sq_dd(r: &[f64]) -> f64 {
+    let (mut hi, mut lo) = (0.0, 0.0);
+    for &x in r {
+        let (p, ep) = two_prod_dekker(x, x);
+        let (s, es) = two_sum(hi, p);
+        hi = s;
+        lo += ep + es;
+    }
+    hi + lo
 }
 
 impl ModelFactor {
@@ -297,11 +381,12 @@ impl ModelFactor {
         let k = self.k;
         let mut z = b[..k].to_vec();
         for i in (0..k).rev() {
-            let mut s = z[i];
-            for j in i + 1..k {
-                s -= self.r[j * k + i] * z[j];
-            }
-            z[i] = s / self.r[i * k + i];
+            let (head, tail) = z.split_at_mut(i + 1);
+            let s = tail
+                .iter()
+                .enumerate()
+                .fold(head[i], |s, (o, zj)| s - self.r[(i + 1 + o) * k + i] * zj);
+            head[i] = s / self.r[i * k + i];
         }
         z
     }
@@ -311,10 +396,8 @@ impl ModelFactor {
         let k = self.k;
         let mut h = g[..k].to_vec();
         for i in 0..k {
-            let mut s = h[i];
-            for l in 0..i {
-                s -= self.r[i * k + l] * h[l];
-            }
+            let col = &self.r[i * k..i * k + i];
+            let s = col.iter().zip(&h[..i]).fold(h[i], |s, (r, hl)| s - r * hl);
             h[i] = s / self.r[i * k + i];
         }
         h

@@ -30,6 +30,18 @@ pub const EXHAUSTIVE_LIMIT: usize = 20;
 /// The most free candidates a search accepts (one bit per candidate in a 63-bit set).
 pub const MAX_CANDIDATES: usize = 63;
 
+/// Which statistics a search computes for the models it reports.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Statistics {
+    /// Every statistic, from a refit of each reported model on the data (residuals in
+    /// compensated arithmetic, leverages for PRESS).
+    #[default]
+    Full,
+    /// The ranking and the SSE-based statistics only, read off each model's QR factor; PRESS is
+    /// not computed. Meant for timing the ranking itself.
+    RankingOnly,
+}
+
 /// Options of [`best_subsets`].
 #[derive(Clone)]
 pub struct SearchOptions<'a> {
@@ -43,6 +55,8 @@ pub struct SearchOptions<'a> {
     pub method: SearchMethod,
     /// The QR options of the refits; its rank tolerance also decides aliasing in the fast path.
     pub qr: QrOptions,
+    /// The statistics computed for the reported models.
+    pub statistics: Statistics,
     /// Called now and then with the fraction of subsets dealt with, from 0 to 1.
     pub progress: Option<&'a (dyn Fn(f64) + Sync)>,
     /// When this flag becomes true the search stops with [`EngineError::Cancelled`].
@@ -57,6 +71,7 @@ impl Default for SearchOptions<'_> {
             forced: Vec::new(),
             method: SearchMethod::Auto,
             qr: QrOptions::default(),
+            statistics: Statistics::Full,
             progress: None,
             cancel: None,
         }
@@ -71,6 +86,7 @@ impl std::fmt::Debug for SearchOptions<'_> {
             .field("forced", &self.forced)
             .field("method", &self.method)
             .field("qr", &self.qr)
+            .field("statistics", &self.statistics)
             .field("progress", &self.progress.is_some())
             .field("cancel", &self.cancel.is_some())
             .finish()
@@ -146,7 +162,8 @@ impl SubsetModel {
     pub fn sbc(&self) -> Option<f64> {
         self.sbc
     }
-    /// PRESS = Σ wᵢ (eᵢ / (1 − hᵢ))²; `None` when a leverage equals 1 (see [`Self::press_note`]).
+    /// PRESS = Σ wᵢ (eᵢ / (1 − hᵢ))²; `None` when a leverage equals 1 (see [`Self::press_note`])
+    /// or when the search computed the ranking only.
     pub fn press(&self) -> Option<f64> {
         self.press
     }
@@ -349,27 +366,44 @@ pub fn best_subsets(cands: &Candidates, opts: &SearchOptions<'_>) -> Result<Subs
     forced.sort_unstable();
     for w in forced.windows(2) {
         if w[0] == w[1] {
-            return Err(bad("forced", &format!("{} is forced in twice", cands.terms()[w[0]].label)));
+            return Err(bad(
+                "forced",
+                &format!("{} is forced in twice", cands.terms()[w[0]].label),
+            ));
         }
     }
     if let Some(&t) = forced.iter().find(|&&t| t >= nterms) {
-        return Err(bad("forced", &format!("there is no candidate number {t}; there are {nterms}")));
+        return Err(bad(
+            "forced",
+            &format!("there is no candidate number {t}; there are {nterms}"),
+        ));
     }
-    let free: Vec<usize> = (0..nterms).filter(|t| forced.binary_search(t).is_err()).collect();
+    let free: Vec<usize> = (0..nterms)
+        .filter(|t| forced.binary_search(t).is_err())
+        .collect();
     if free.len() > MAX_CANDIDATES {
-        return Err(EngineError::TooManyCandidates { count: free.len(), max: MAX_CANDIDATES });
+        return Err(EngineError::TooManyCandidates {
+            count: free.len(),
+            max: MAX_CANDIDATES,
+        });
     }
     let max_size = opts.max_size.unwrap_or(nterms).min(nterms);
     if max_size < forced.len() {
         return Err(bad(
             "max_size",
-            &format!("the largest size ({max_size}) is smaller than the number of forced terms ({})", forced.len()),
+            &format!(
+                "the largest size ({max_size}) is smaller than the number of forced terms ({})",
+                forced.len()
+            ),
         ));
     }
-    if !forced.is_empty() {
-        if let Err(a) = cands.refit(&forced, None, &opts.qr, false) {
-            return Err(EngineError::Aliased { column: a.column, combination: a.combination });
-        }
+    if !forced.is_empty()
+        && let Err(a) = cands.refit(&forced, None, &opts.qr, false)
+    {
+        return Err(EngineError::Aliased {
+            column: a.column,
+            combination: a.combination,
+        });
     }
     let method = match opts.method {
         SearchMethod::Auto if free.len() <= EXHAUSTIVE_LIMIT => SearchMethod::Exhaustive,
@@ -401,9 +435,20 @@ pub fn best_subsets(cands: &Candidates, opts: &SearchOptions<'_>) -> Result<Subs
         if s + forced.len() > max_size {
             break;
         }
-        let mut ranked: Vec<(f64, Vec<usize>, Refit)> = Vec::new();
+        let mut ranked: Vec<(f64, Vec<usize>)> = Vec::new();
         let mut aliased_on_refit = Vec::new();
         let tie = TIE_TOLERANCE * sst;
+        let aliased = |terms: &[usize], pos: usize| {
+            let a = cands.alias_explanation(terms, fac.rows(), pos);
+            AliasedModel {
+                labels: cands.labels(terms),
+                message: EngineError::Aliased {
+                    column: a.column,
+                    combination: a.combination,
+                }
+                .to_string(),
+            }
+        };
         for e in pool {
             if ranked.len() >= opts.top {
                 let mut sses: Vec<f64> = ranked.iter().map(|r| r.0).collect();
@@ -413,26 +458,53 @@ pub fn best_subsets(cands: &Candidates, opts: &SearchOptions<'_>) -> Result<Subs
                 }
             }
             let mut terms: Vec<usize> = forced.clone();
-            terms.extend((0..fast.order.len()).filter(|&q| e.mask >> q & 1 == 1).map(|q| fast.order[q]));
+            terms.extend(
+                (0..fast.order.len())
+                    .filter(|&q| e.mask >> q & 1 == 1)
+                    .map(|q| fast.order[q]),
+            );
             terms.sort_unstable();
             refits += 1;
-            match fac.refit(cands, &terms, &opts.qr, true) {
-                Ok(r) => ranked.push((r.sse, terms, r)),
-                Err(a) => aliased_on_refit.push(AliasedModel {
-                    labels: cands.labels(&terms),
-                    message: EngineError::Aliased { column: a.column, combination: a.combination }.to_string(),
-                }),
+            match fac.factor_model(&fac.model_positions(cands, &terms), &opts.qr) {
+                Ok(f) => ranked.push((f.sse, terms)),
+                Err(pos) => aliased_on_refit.push(aliased(&terms, pos)),
             }
         }
         rank_with_ties(&mut ranked, tie, |r| (r.0, &r.1));
         ranked.truncate(opts.top);
         let size = s + forced.len();
-        let models = ranked
-            .into_iter()
-            .enumerate()
-            .map(|(i, (_, terms, r))| describe(cands, terms, size, i + 1, &r, sst, log_w, cp_reference.mse))
-            .collect();
-        sizes.push(SizeBest { size, models, aliased: fast.aliased[s], aliased_on_refit, no_df: fast.no_df[s] });
+        let mut models = Vec::with_capacity(ranked.len());
+        for (sse, terms) in ranked {
+            let refit = match opts.statistics {
+                Statistics::Full => fac.refit(cands, &terms, &opts.qr, true),
+                Statistics::RankingOnly => Ok(Refit {
+                    sse,
+                    params: cands.params_of(&terms),
+                    weighted_residuals: Vec::new(),
+                    leverages: None,
+                }),
+            };
+            match refit {
+                Ok(r) => models.push(describe(
+                    cands,
+                    terms,
+                    size,
+                    models.len() + 1,
+                    &r,
+                    sst,
+                    log_w,
+                    cp_reference.mse,
+                )),
+                Err(_) => aliased_on_refit.push(aliased(&terms, 0)),
+            }
+        }
+        sizes.push(SizeBest {
+            size,
+            models,
+            aliased: fast.aliased[s],
+            aliased_on_refit,
+            no_df: fast.no_df[s],
+        });
     }
     for sb in &sizes {
         for m in &sb.models {
@@ -487,7 +559,12 @@ pub const TIE_TOLERANCE: f64 = 1e-12;
 /// Sorts by SSE, then orders each run of tied SSEs (each within `tie` of the run's first) by the
 /// term list, so exact ties come out in the same order whatever their rounding.
 pub fn rank_with_ties<T>(v: &mut [T], tie: f64, key: impl Fn(&T) -> (f64, &[usize])) {
-    v.sort_by(|a, b| key(a).0.total_cmp(&key(b).0).then_with(|| key(a).1.cmp(key(b).1)));
+    v.sort_by(|a, b| {
+        key(a)
+            .0
+            .total_cmp(&key(b).0)
+            .then_with(|| key(a).1.cmp(key(b).1))
+    });
     let mut start = 0;
     while start < v.len() {
         let first = key(&v[start]).0;
@@ -501,12 +578,19 @@ pub fn rank_with_ties<T>(v: &mut [T], tie: f64, key: impl Fn(&T) -> (f64, &[usiz
 }
 
 fn bad(option: &str, reason: &str) -> EngineError {
-    EngineError::BadSearchOption { option: option.to_owned(), reason: reason.to_owned() }
+    EngineError::BadSearchOption {
+        option: option.to_owned(),
+        reason: reason.to_owned(),
+    }
 }
 
 /// A short name for a model: its labels joined, or "the intercept-only model".
 pub(crate) fn model_name(labels: &[String]) -> String {
-    if labels.is_empty() { "the intercept-only model".to_owned() } else { labels.join(" + ") }
+    if labels.is_empty() {
+        "the intercept-only model".to_owned()
+    } else {
+        labels.join(" + ")
+    }
 }
 
 /// Gaussian log-likelihood at the MLE of σ² (ENGINE_API convention, as in docs/METHODS.md).
@@ -563,7 +647,7 @@ const LEVERAGE_ONE: f64 = 1.0 - 1e-10;
 /// PRESS from the refit's residuals and leverages (Allen 1974), or why it is undefined.
 pub(crate) fn press(cands: &Candidates, r: &Refit) -> (Option<f64>, Option<String>) {
     let Some(h) = &r.leverages else {
-        return (None, Some("leverages were not computed".to_owned()));
+        return (None, None);
     };
     if let Some(i) = h.iter().position(|&v| v >= LEVERAGE_ONE) {
         return (
@@ -575,14 +659,25 @@ pub(crate) fn press(cands: &Candidates, r: &Refit) -> (Option<f64>, Option<Strin
             )),
         );
     }
-    let s = crate::linalg::sum_dd(r.weighted_residuals.iter().zip(h).map(|(e, h)| (e / (1.0 - h)).powi(2)));
+    let s = crate::linalg::sum_dd(
+        r.weighted_residuals
+            .iter()
+            .zip(h)
+            .map(|(e, h)| (e / (1.0 - h)).powi(2)),
+    );
     (Some(s), None)
 }
 
 /// The reference model for Cp: the full model, or the largest full-rank model when it is not of
 /// full rank (terms are left out one at a time, each time the one holding the first aliased
 /// column in the order forced terms, then candidates in design order).
-fn cp_reference(cands: &Candidates, fac: &Factored, forced: &[usize], free: &[usize], qr: &QrOptions) -> CpReference {
+fn cp_reference(
+    cands: &Candidates,
+    fac: &Factored,
+    forced: &[usize],
+    free: &[usize],
+    qr: &QrOptions,
+) -> CpReference {
     let n = cands.nrows();
     let mut terms: Vec<usize> = forced.iter().chain(free).copied().collect();
     let mut left_out = Vec::new();
@@ -616,22 +711,41 @@ fn cp_reference(cands: &Candidates, fac: &Factored, forced: &[usize], free: &[us
                         crate::error::join_names(&lo)
                     )
                 });
-                return CpReference { labels, left_out: lo, mse: Some(r.sse / df as f64), df_resid: df, note };
+                return CpReference {
+                    labels,
+                    left_out: lo,
+                    mse: Some(r.sse / df as f64),
+                    df_resid: df,
+                    note,
+                };
             }
             Err(a) => {
                 let names = cands.column_names();
                 let Some(pos) = terms.iter().position(|&t| {
-                    cands.terms()[t].columns.clone().any(|j| names[j] == a.column) && !forced.contains(&t)
+                    cands.terms()[t]
+                        .columns
+                        .clone()
+                        .any(|j| names[j] == a.column)
+                        && !forced.contains(&t)
                 }) else {
                     return CpReference {
                         labels: Vec::new(),
                         left_out: cands.labels(&left_out),
                         mse: None,
                         df_resid: 0,
-                        note: Some("Mallows' Cp is not given: no full-rank reference model was found.".to_owned()),
+                        note: Some(
+                            "Mallows' Cp is not given: no full-rank reference model was found."
+                                .to_owned(),
+                        ),
                     };
                 };
-                reasons.push(EngineError::Aliased { column: a.column, combination: a.combination }.to_string());
+                reasons.push(
+                    EngineError::Aliased {
+                        column: a.column,
+                        combination: a.combination,
+                    }
+                    .to_string(),
+                );
                 left_out.push(terms.remove(pos));
             }
         }

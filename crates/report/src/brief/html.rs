@@ -81,14 +81,28 @@ pub fn render(brief: &Brief) -> Result<String> {
     let _ = writeln!(out, "<style>{CSS}</style>\n</head>\n<body>\n<main>");
     for s in brief.sections() {
         if s.kind() == SectionKind::Title {
-            let _ = writeln!(out, "<header class=\"cover\" id=\"{}\">\n<h1>{}</h1>", s.kind().id(), escape(brief.title()));
+            let _ = writeln!(
+                out,
+                "<header class=\"cover\" id=\"{}\">\n<h1>{}</h1>",
+                s.kind().id(),
+                escape(brief.title())
+            );
             let _ = writeln!(out, "<h2>{}</h2>", escape(s.heading()));
             blocks(&mut out, s.blocks());
             out.push_str("</header>\n");
             continue;
         }
-        let class = if s.kind() == SectionKind::Limitations { " class=\"limitations\"" } else { "" };
-        let _ = writeln!(out, "<section id=\"{}\"{class}>\n<h2>{}</h2>", s.kind().id(), escape(s.heading()));
+        let class = if s.kind() == SectionKind::Limitations {
+            " class=\"limitations\""
+        } else {
+            ""
+        };
+        let _ = writeln!(
+            out,
+            "<section id=\"{}\"{class}>\n<h2>{}</h2>",
+            s.kind().id(),
+            escape(s.heading())
+        );
         blocks(&mut out, s.blocks());
         out.push_str("</section>\n");
     }
@@ -116,7 +130,12 @@ fn blocks(out: &mut String, blocks: &[Block]) {
             Block::Table(t) => table(out, t),
             Block::Figure(f) => {
                 // The chart module escapes its own text and emits no script or style.
-                let _ = writeln!(out, "<figure>\n{}<figcaption>{}</figcaption>\n</figure>", f.svg, escape(&f.caption));
+                let _ = writeln!(
+                    out,
+                    "<figure>\n{}<figcaption>{}</figcaption>\n</figure>",
+                    f.svg,
+                    escape(&f.caption)
+                );
             }
             Block::Code(c) => {
                 let _ = writeln!(out, "<pre>{}</pre>", escape(c));
@@ -133,7 +152,11 @@ fn blocks(out: &mut String, blocks: &[Block]) {
 }
 
 fn table(out: &mut String, t: &Table) {
-    let _ = writeln!(out, "<div class=\"table-wrap\"><table>\n<caption>{}</caption>\n<thead><tr>", escape(&t.caption));
+    let _ = writeln!(
+        out,
+        "<div class=\"table-wrap\"><table>\n<caption>{}</caption>\n<thead><tr>",
+        escape(&t.caption)
+    );
     for c in &t.columns {
         let _ = write!(out, "<th scope=\"col\">{}</th>", escape(c));
     }

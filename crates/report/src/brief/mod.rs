@@ -11,6 +11,17 @@
 //! off (unknown fields are refused when it is read from JSON), [`Brief::build`] always writes
 //! it from the analysis, [`Limitations::new`] refuses an empty list or an empty caution, and
 //! every renderer checks it is present before writing anything.
+//!
+//! # Use
+//!
+//! ```text
+//! let input = BriefInput { question, author, date, wardcast_version, fit, checks: Some(checks), .. };
+//! let brief = Brief::build(&input)?;
+//! let page = html::render(&brief)?;                                  // brief.html
+//! let pdf = pdf::render(&brief, &pdf::PdfOptions::default())?;       // brief.pdf (A4)
+//! let csv = tables::to_csv(&brief)?;                                 // tables.csv
+//! let xlsx = tables::to_xlsx(&brief)?;                               // tables.xlsx
+//! ```
 
 mod build;
 pub mod html;
@@ -232,7 +243,7 @@ pub enum SectionKind {
     Checks,
     /// Observed against expected per district.
     Districts,
-    /// Allocation scenarios.
+    /// Allocation scenarios (a one-line note when none was run).
     Allocation,
     /// Limitations and cautions (always present).
     Limitations,
@@ -290,7 +301,11 @@ impl Cell {
 
     /// A number with a given printed form; a non-finite value becomes text.
     pub fn number(value: f64, shown: String) -> Self {
-        if value.is_finite() { Cell::Number { value, shown } } else { Cell::Text("not defined".to_owned()) }
+        if value.is_finite() {
+            Cell::Number { value, shown }
+        } else {
+            Cell::Text("not defined".to_owned())
+        }
     }
 
     /// The printed form.
@@ -401,7 +416,9 @@ impl Limitations {
     /// [`ReportError::Brief`] when any caution is empty or a required heading is missing.
     pub fn new(items: Vec<CautionText>) -> Result<Self> {
         if items.is_empty() {
-            return Err(ReportError::brief("the limitations and cautions section is empty"));
+            return Err(ReportError::brief(
+                "the limitations and cautions section is empty",
+            ));
         }
         for item in &items {
             if item.heading.trim().is_empty() || item.text.trim().is_empty() {
@@ -495,7 +512,9 @@ impl Brief {
             })
             .collect();
         if section.blocks.is_empty() || listed.len() < Limitations::REQUIRED.len() {
-            return Err(ReportError::brief("the limitations and cautions section is empty"));
+            return Err(ReportError::brief(
+                "the limitations and cautions section is empty",
+            ));
         }
         Limitations::new(self.limitations.items.clone()).map(|_| ())
     }

@@ -104,14 +104,18 @@ pub fn to_xlsx(brief: &Brief) -> Result<Vec<u8>> {
         let ws = wb.add_worksheet();
         ws.set_name(sheet_name(t, &mut used)).map_err(xlsx_err)?;
         for (j, c) in t.columns.iter().enumerate() {
-            let col = u16::try_from(j).map_err(|_| ReportError::brief("a table has too many columns"))?;
-            ws.write_string_with_format(0, col, neutralise(c), &bold).map_err(xlsx_err)?;
+            let col =
+                u16::try_from(j).map_err(|_| ReportError::brief("a table has too many columns"))?;
+            ws.write_string_with_format(0, col, neutralise(c), &bold)
+                .map_err(xlsx_err)?;
             ws.set_column_width(col, 16).map_err(xlsx_err)?;
         }
         for (i, row) in t.rows.iter().enumerate() {
-            let r = u32::try_from(i + 1).map_err(|_| ReportError::brief("a table has too many rows"))?;
+            let r = u32::try_from(i + 1)
+                .map_err(|_| ReportError::brief("a table has too many rows"))?;
             for (j, cell) in row.iter().enumerate() {
-                let col = u16::try_from(j).map_err(|_| ReportError::brief("a table has too many columns"))?;
+                let col = u16::try_from(j)
+                    .map_err(|_| ReportError::brief("a table has too many columns"))?;
                 match cell {
                     Cell::Number { value, .. } => {
                         ws.write_number(r, col, *value).map_err(xlsx_err)?;

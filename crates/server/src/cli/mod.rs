@@ -4,8 +4,11 @@
 //! defined once in [`model_args`]. Bad input prints one line on standard error and exits
 //! with code 2; success prints JSON on standard output.
 
+pub mod brief;
+pub mod check;
 pub mod fit;
 pub mod model_args;
+pub mod select;
 
 use std::process::ExitCode;
 
@@ -32,6 +35,12 @@ pub enum Command {
     Serve(ServeArgs),
     /// Fit a model and print the fit document as JSON.
     Fit(ModelArgs),
+    /// Check a model's assumptions, influential areas and collinearity; print the checks document.
+    Check(ModelArgs),
+    /// Search the best subsets of the predictors, cross-validate them and compare nested models.
+    Select(select::SelectArgs),
+    /// Write the budgeting brief (PDF or HTML) or its tables (CSV or XLSX).
+    Brief(brief::BriefArgs),
 }
 
 /// Flags of `wardcast serve`.
@@ -54,6 +63,9 @@ pub fn main() -> ExitCode {
     let outcome = match cli.command {
         Command::Serve(args) => serve(args),
         Command::Fit(args) => fit::run(&args),
+        Command::Check(args) => check::run(&args),
+        Command::Select(args) => select::run(&args),
+        Command::Brief(args) => brief::run(&args),
     };
     match outcome {
         Ok(code) => code,
@@ -69,7 +81,13 @@ fn serve(args: ServeArgs) -> Result<ExitCode, String> {
         .enable_all()
         .build()
         .map_err(|e| format!("could not start the runtime: {e}"))?;
-    let config = crate::web::ServeConfig { port: args.port, data_dir: args.data_dir, share: args.share };
-    runtime.block_on(crate::web::serve(config)).map_err(|e| e.to_string())?;
+    let config = crate::web::ServeConfig {
+        port: args.port,
+        data_dir: args.data_dir,
+        share: args.share,
+    };
+    runtime
+        .block_on(crate::web::serve(config))
+        .map_err(|e| e.to_string())?;
     Ok(ExitCode::SUCCESS)
 }

@@ -17,8 +17,8 @@ use super::Ctx;
 use super::pages::{Layout, Section, render};
 use super::state::Analysis;
 use super::words::{
-    Estimate, TermKind, Wording, capitalise, classify_terms, comparison_label, comparison_scale, comparison_sentence,
-    fmt_level, fmt_num, fmt_p, fmt_prose,
+    Estimate, TermKind, Wording, capitalise, classify_terms, comparison_label, comparison_scale,
+    comparison_sentence, fmt_level, fmt_num, fmt_p, fmt_prose,
 };
 use crate::error::Result;
 
@@ -33,15 +33,31 @@ pub struct Figure {
 
 impl Figure {
     fn new(x: f64) -> Self {
-        Figure { text: fmt_num(x), raw: if x.is_finite() { format!("{x:?}") } else { String::new() } }
+        Figure {
+            text: fmt_num(x),
+            raw: if x.is_finite() {
+                format!("{x:?}")
+            } else {
+                String::new()
+            },
+        }
     }
 
     fn from_number(n: Number) -> Self {
         match n {
             Number::Finite(x) => Figure::new(x),
-            Number::PosInfinity => Figure { text: "infinite".into(), raw: "Infinity".into() },
-            Number::NegInfinity => Figure { text: "minus infinite".into(), raw: "-Infinity".into() },
-            Number::Undefined => Figure { text: "undefined".into(), raw: String::new() },
+            Number::PosInfinity => Figure {
+                text: "infinite".into(),
+                raw: "Infinity".into(),
+            },
+            Number::NegInfinity => Figure {
+                text: "minus infinite".into(),
+                raw: "-Infinity".into(),
+            },
+            Number::Undefined => Figure {
+                text: "undefined".into(),
+                raw: String::new(),
+            },
         }
     }
 }
@@ -76,6 +92,8 @@ pub struct Fact {
     pub heading: String,
     /// The headline figure.
     pub value: String,
+    /// The figure's unit, shown smaller; empty when none.
+    pub unit: String,
     /// One or two sentences saying what it means.
     pub explanation: String,
 }
@@ -173,12 +191,24 @@ impl EffectsPage {
             level: spec.level,
         };
 
-        let has_intercept = spec.intercept && fit.coefficients.first().is_some_and(|c| c.term == "(intercept)");
-        let slopes = if has_intercept { &fit.coefficients[1..] } else { &fit.coefficients[..] };
+        let has_intercept = spec.intercept
+            && fit
+                .coefficients
+                .first()
+                .is_some_and(|c| c.term == "(intercept)");
+        let slopes = if has_intercept {
+            &fit.coefficients[1..]
+        } else {
+            &fit.coefficients[..]
+        };
         let terms: Vec<String> = slopes.iter().map(|c| c.term.clone()).collect();
         let kinds = classify_terms(spec, &terms);
         let row = |c: &CoefficientDoc, kind: &TermKind| {
-            let estimate = Estimate { value: c.estimate, low: c.interval.low, high: c.interval.high };
+            let estimate = Estimate {
+                value: c.estimate,
+                low: c.interval.low,
+                high: c.interval.high,
+            };
             EffectRow {
                 term: c.term.clone(),
                 sentence: comparison_sentence(kind, estimate, &wording),
@@ -212,14 +242,25 @@ impl EffectsPage {
 
         let n = fit.rows_used;
         let total = n + fit.rows_dropped.len();
-        let unit = response.unit.clone().map(|u| if u == "%" { " percentage points".to_owned() } else { format!(" {u}") });
+        let unit = response.unit.clone().map(|u| {
+            if u == "%" {
+                " percentage points".to_owned()
+            } else {
+                format!(" {u}")
+            }
+        });
         let mut facts = vec![Fact {
             heading: format!("{} in the model", capitalise(areas)),
             value: format!("{n} of {total}"),
+            unit: String::new(),
             explanation: match fit.rows_dropped.len() {
                 0 => format!("Every one of the {total} {areas} in the table is used."),
-                1 => format!("One of the {total} was left out; it is listed below with the reason."),
-                k => format!("{k} of the {total} were left out; each is listed below with its reason."),
+                1 => {
+                    format!("One of the {total} was left out; it is listed below with the reason.")
+                }
+                k => format!(
+                    "{k} of the {total} were left out; each is listed below with its reason."
+                ),
             },
         }];
         let about = if fit.sums_of_squares.basis == "about_zero" {
@@ -230,6 +271,7 @@ impl EffectsPage {
         facts.push(Fact {
             heading: "Variation accounted for".into(),
             value: format!("{}%", fmt_prose(fit.r_squared * 100.0)),
+            unit: String::new(),
             explanation: format!(
                 "Across these {areas}, the indicators together account for {}% of the variation in {} \
                  (R² = {}; adjusted for the number of indicators, {}). A large share does not make the \
@@ -242,7 +284,11 @@ impl EffectsPage {
         });
         facts.push(Fact {
             heading: "Typical distance from the model".into(),
-            value: format!("{}{}", fmt_num(fit.residual_sd), unit.clone().unwrap_or_default()),
+            value: fmt_num(fit.residual_sd),
+            unit: unit
+                .clone()
+                .map(|u| u.trim().to_owned())
+                .unwrap_or_default(),
             explanation: format!(
                 "Observed values of {} typically lie about {}{} from the model's values \
                  (the residual standard deviation, on {} residual degrees of freedom).",
@@ -256,6 +302,7 @@ impl EffectsPage {
         facts.push(Fact {
             heading: "For comparing models".into(),
             value: format!("AIC {} · SBC {}", fmt_num(fit.likelihood.aic), fmt_num(fit.likelihood.sbc)),
+            unit: String::new(),
             explanation: format!(
                 "These two criteria mean something only next to another model fitted to the same {areas}: \
                  the lower value is preferred, and SBC penalises extra indicators more than AIC does \
@@ -268,6 +315,7 @@ impl EffectsPage {
             facts.push(Fact {
                 heading: "Weighting".into(),
                 value: label.clone(),
+                unit: String::new(),
                 explanation: format!(
                     "Each area counts in proportion to its {label} (weighted least squares), so areas with larger weights pull the model more."
                 ),
@@ -303,7 +351,10 @@ impl EffectsPage {
             dropped: fit
                 .rows_dropped
                 .iter()
-                .map(|d| DroppedRow { key: d.key.clone(), reason: d.reason.clone() })
+                .map(|d| DroppedRow {
+                    key: d.key.clone(),
+                    reason: d.reason.clone(),
+                })
                 .collect(),
             anova: test_rows(&fit.sequential_anova),
             partial: test_rows(&fit.partial_f),
@@ -323,7 +374,12 @@ impl EffectsPage {
 /// makes (the column's step, or a doubling for a logged indicator), so all rows share the
 /// response's unit. A chart that cannot be drawn is left out and logged; the sentences and
 /// tables still carry every number.
-fn effect_chart(slopes: &[CoefficientDoc], kinds: &[TermKind], w: &Wording<'_>, areas: &str) -> Option<String> {
+fn effect_chart(
+    slopes: &[CoefficientDoc],
+    kinds: &[TermKind],
+    w: &Wording<'_>,
+    areas: &str,
+) -> Option<String> {
     if slopes.is_empty() {
         return None;
     }
@@ -331,7 +387,13 @@ fn effect_chart(slopes: &[CoefficientDoc], kinds: &[TermKind], w: &Wording<'_>, 
     let log_response = matches!(w.response_transform, Some(TransformSpec::Log))
         || matches!(w.response_transform, Some(TransformSpec::Power { lambda }) if lambda == 0.0);
     // Under a logged response a difference d is a ratio e^d, shown as a percentage difference.
-    let shown = |d: f64| if log_response { (d.exp() - 1.0) * 100.0 } else { d };
+    let shown = |d: f64| {
+        if log_response {
+            (d.exp() - 1.0) * 100.0
+        } else {
+            d
+        }
+    };
     let rows = slopes
         .iter()
         .zip(kinds)
@@ -354,8 +416,13 @@ fn effect_chart(slopes: &[CoefficientDoc], kinds: &[TermKind], w: &Wording<'_>, 
                 None => String::new(),
             },
         ),
-        Some(_) if log_response => Axis::new(format!("Difference in typical {}", response.label), "%"),
-        Some(t) => Axis::new(format!("Difference in {} of {}", transform_name(t), response.label), ""),
+        Some(_) if log_response => {
+            Axis::new(format!("Difference in typical {}", response.label), "%")
+        }
+        Some(t) => Axis::new(
+            format!("Difference in {} of {}", transform_name(t), response.label),
+            "",
+        ),
     };
     let plot = EffectPlot {
         title: format!("How {} differs with each indicator", response.label),
@@ -397,6 +464,7 @@ fn overall_fact(fit: &FitDocument, response: &str) -> Fact {
         (Number::PosInfinity, _) => Fact {
             heading: "All indicators together".into(),
             value: "exact fit".into(),
+            unit: String::new(),
             explanation: format!(
                 "The model reproduces every value of {response} exactly, so the F statistic is infinite ({dfs}). \
                  With real area data this usually means a column restates the response."
@@ -411,6 +479,7 @@ fn overall_fact(fit: &FitDocument, response: &str) -> Fact {
             Fact {
                 heading: "All indicators together".into(),
                 value: fmt_p(Some(p)),
+                unit: String::new(),
                 explanation: format!(
                     "If none of the indicators were related to {response}, {verdict} \
                      (F = {}, {dfs}, {}).",
@@ -422,7 +491,9 @@ fn overall_fact(fit: &FitDocument, response: &str) -> Fact {
         _ => Fact {
             heading: "All indicators together".into(),
             value: "no test".into(),
-            explanation: "The model has no indicators to test, so there is no overall F test.".into(),
+            unit: String::new(),
+            explanation: "The model has no indicators to test, so there is no overall F test."
+                .into(),
         },
     }
 }

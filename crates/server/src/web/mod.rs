@@ -38,10 +38,11 @@ use tower_http::services::ServeDir;
 use tower_http::set_header::SetResponseHeaderLayer;
 use tower_http::timeout::{RequestBodyTimeoutLayer, TimeoutLayer};
 
+pub use crate::security::DEFAULT_PORT;
 pub use state::{Analysis, AppState, ColumnInfo, Glossary};
 
 use crate::error::{Result, ServerError};
-use crate::security::{self, CONTENT_SECURITY_POLICY, DEFAULT_PORT, Limits, Security, SecurityConfig, Token};
+use crate::security::{self, CONTENT_SECURITY_POLICY, Limits, Security, SecurityConfig, Token};
 
 /// The router's state: the workspace and the live security state.
 #[derive(Debug, Clone)]
@@ -62,9 +63,11 @@ impl Ctx {
                 "An analysis id is made of lowercase letters, digits and hyphens.".into(),
             ));
         }
-        self.app
-            .get(id)?
-            .ok_or_else(|| ServerError::NotFound(format!("There is no analysis called {id:?} in this session.")))
+        self.app.get(id)?.ok_or_else(|| {
+            ServerError::NotFound(format!(
+                "There is no analysis called {id:?} in this session."
+            ))
+        })
     }
 }
 
@@ -82,7 +85,10 @@ pub fn router(state: AppState, security: SecurityConfig) -> Router {
 pub fn router_with_assets(state: AppState, security: SecurityConfig, assets: PathBuf) -> Router {
     let limits = security.limits();
     let security = Security::new(security);
-    let ctx = Ctx { app: state, security: security.clone() };
+    let ctx = Ctx {
+        app: state,
+        security: security.clone(),
+    };
     let routes = Router::new()
         .route("/", get(start::page))
         .route("/analyses/{id}", get(effects::page))
@@ -93,7 +99,10 @@ pub fn router_with_assets(state: AppState, security: SecurityConfig, assets: Pat
         .fallback(not_found)
         .with_state(ctx);
     let header = |name: &'static str, value: &'static str| {
-        SetResponseHeaderLayer::overriding(HeaderName::from_static(name), HeaderValue::from_static(value))
+        SetResponseHeaderLayer::overriding(
+            HeaderName::from_static(name),
+            HeaderValue::from_static(value),
+        )
     };
     routes.layer(
         ServiceBuilder::new()
@@ -102,8 +111,14 @@ pub fn router_with_assets(state: AppState, security: SecurityConfig, assets: Pat
             .layer(header("referrer-policy", "no-referrer"))
             .layer(header("x-frame-options", "DENY"))
             .layer(header("cross-origin-opener-policy", "same-origin"))
-            .layer(TimeoutLayer::with_status_code(StatusCode::REQUEST_TIMEOUT, limits.request))
-            .layer(axum::middleware::from_fn_with_state(security, security::guard))
+            .layer(TimeoutLayer::with_status_code(
+                StatusCode::REQUEST_TIMEOUT,
+                limits.request,
+            ))
+            .layer(axum::middleware::from_fn_with_state(
+                security,
+                security::guard,
+            ))
             .layer(RequestBodyLimitLayer::new(limits.body_bytes))
             .layer(RequestBodyTimeoutLayer::new(limits.body_idle)),
     )
@@ -132,45 +147,53 @@ pub(crate) async fn read_body(body: Body, limit: usize) -> Result<Bytes> {
     })
 }
 
-/// How to run the server.
+/// How to run the server: the flags of `wardcast serve`.
 #[derive(Debug, Clone)]
 pub struct ServeConfig {
     /// The port; 0 lets the operating system choose. Default [`DEFAULT_PORT`] (7878).
     pub port: u16,
-    /// Share on the local network (`--share`) instead of listening on 127.0.0.1 only.
-    pub share: bool,
-    /// The LAN address to share on; found automatically when `None`.
-    pub share_address: Option<IpAddr>,
     /// Where datasets and analyses are kept (`--data-dir`); used once the store is wired in.
     pub data_dir: Option<PathBuf>,
-    /// The static assets folder.
-    pub assets_dir: PathBuf,
-    /// Body size and time limits.
-    pub limits: Limits,
-    /// The analyses to start with (e.g. the demo).
-    pub state: AppState,
+    /// Share on the local network (`--share`) instead of listening on 127.0.0.1 only.
+    pub share: bool,
 }
 
-impl ServeConfig {
-    /// Local-only on the default port, with default limits and the repository's assets.
-    pub fn new(state: AppState) -> Self {
-        ServeConfig {
-            port: DEFAULT_PORT,
-            share: false,
-            share_address: None,
-            data_dir: None,
-            assets_dir: default_assets_dir(),
+/// What the server starts with beyond its flags.
+#[derive(Debug, Clone)]
+pub struct ServeOptions {
+    /// The analyses to start with (e.g. the demo).
+    pub state: AppState,
+    /// Body size and time limits.
+    pub limits: Limits,
+    /// The static assets folder.
+    pub assets_dir: PathBuf,
+    /// The LAN address to share on; found automatically when `None`.
+    pub share_address: Option<IpAddr>,
+}
+
+impl Default for ServeOptions {
+    /// An empty workspace, default limits, the repository's assets, the LAN address found
+    /// automatically.
+    fn default() -> Self {
+        ServeOptions {
+            state: AppState::new(),
             limits: Limits::default(),
-            state,
+            assets_dir: default_assets_dir(),
+            share_address: None,
         }
     }
 }
 
+/// Serves an empty workspace; see [`serve_with`].
+pub async fn serve(config: ServeConfig) -> Result<()> {
+    serve_with(config, ServeOptions::default()).await
+}
+
 /// Binds the socket and serves until Ctrl-C. Local mode binds 127.0.0.1; `share` binds the LAN
 /// address and prints the joining link with its token.
-pub async fn serve(config: ServeConfig) -> Result<()> {
+pub async fn serve_with(config: ServeConfig, options: ServeOptions) -> Result<()> {
     let ip = if config.share {
-        match config.share_address {
+        match options.share_address {
             Some(a) => a,
             None => security::detect_lan_address()?,
         }
@@ -180,28 +203,39 @@ pub async fn serve(config: ServeConfig) -> Result<()> {
     let wanted = SocketAddr::new(ip, config.port);
     let listener = tokio::net::TcpListener::bind(wanted)
         .await
-        .map_err(|source| ServerError::Bind { address: wanted.to_string(), source })?;
+        .map_err(|source| ServerError::Bind {
+            address: wanted.to_string(),
+            source,
+        })?;
     let port = listener.local_addr().map_err(ServerError::Serve)?.port();
     let security = if config.share {
         SecurityConfig::shared(port, ip, Token::generate()?)
     } else {
         SecurityConfig::local(port)
     }
-    .with_limits(config.limits);
+    .with_limits(options.limits);
 
     if let Some(link) = security.share_link() {
-        println!("wardcast is shared on the local network. Open this link, or send it to colleagues:");
+        println!(
+            "wardcast is shared on the local network. Open this link, or send it to colleagues:"
+        );
         println!();
         println!("    {link}");
         println!();
-        println!("Warning: plain HTTP on a local network can be read by anyone else on that network.");
-        println!("Share only on a network you trust, and stop wardcast (Ctrl-C) when the meeting ends.");
+        println!(
+            "Warning: plain HTTP on a local network can be read by anyone else on that network."
+        );
+        println!(
+            "Share only on a network you trust, and stop wardcast (Ctrl-C) when the meeting ends."
+        );
     } else {
-        println!("wardcast is running at http://127.0.0.1:{port}/ (only this computer can reach it).");
+        println!(
+            "wardcast is running at http://127.0.0.1:{port}/ (only this computer can reach it)."
+        );
     }
     println!("Press Ctrl-C to stop.");
 
-    let app = router_with_assets(config.state, security, config.assets_dir);
+    let app = router_with_assets(options.state, security, options.assets_dir);
     axum::serve(listener, app)
         .with_graceful_shutdown(async {
             // If the signal handler cannot be installed, run until the process is killed.
@@ -216,6 +250,8 @@ pub async fn serve(config: ServeConfig) -> Result<()> {
 /// A 303 redirect, for form posts that lead back to a page.
 pub(crate) fn see_other(location: &'static str) -> Response {
     let mut response = StatusCode::SEE_OTHER.into_response();
-    response.headers_mut().insert(header::LOCATION, HeaderValue::from_static(location));
+    response
+        .headers_mut()
+        .insert(header::LOCATION, HeaderValue::from_static(location));
     response
 }

@@ -54,5 +54,8 @@ pub async fn page(State(ctx): State<Ctx>) -> Result<Response> {
             }
         })
         .collect();
-    Ok(render(&StartPage { layout: Layout::plain("Start", ctx.shared()), cards }))
+    Ok(render(&StartPage {
+        layout: Layout::plain("Start", ctx.shared()),
+        cards,
+    }))
 }

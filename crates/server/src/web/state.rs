@@ -28,7 +28,11 @@ pub struct ColumnInfo {
 impl ColumnInfo {
     /// A label and unit with a comparison step of 1.
     pub fn new(label: impl Into<String>, unit: Option<&str>) -> Self {
-        ColumnInfo { label: label.into(), unit: unit.map(str::to_owned), step: 1.0 }
+        ColumnInfo {
+            label: label.into(),
+            unit: unit.map(str::to_owned),
+            step: 1.0,
+        }
     }
 
     /// Sets the comparison step (ignored unless finite and positive).
@@ -49,14 +53,20 @@ pub struct Glossary {
 
 impl Default for Glossary {
     fn default() -> Self {
-        Glossary { areas: "areas".into(), columns: BTreeMap::new() }
+        Glossary {
+            areas: "areas".into(),
+            columns: BTreeMap::new(),
+        }
     }
 }
 
 impl Glossary {
     /// An empty glossary whose areas are called `areas_plural` (e.g. "districts").
     pub fn new(areas_plural: impl Into<String>) -> Self {
-        Glossary { areas: areas_plural.into(), columns: BTreeMap::new() }
+        Glossary {
+            areas: areas_plural.into(),
+            columns: BTreeMap::new(),
+        }
     }
 
     /// Adds or replaces a column's description.
@@ -72,7 +82,10 @@ impl Glossary {
 
     /// A column's description; unknown columns are described by their name.
     pub fn column(&self, name: &str) -> ColumnInfo {
-        self.columns.get(name).cloned().unwrap_or_else(|| ColumnInfo::new(name, None))
+        self.columns
+            .get(name)
+            .cloned()
+            .unwrap_or_else(|| ColumnInfo::new(name, None))
     }
 }
 
@@ -88,14 +101,36 @@ pub struct Analysis {
 impl Analysis {
     /// Builds an analysis. The id becomes part of its stable URL, so it must be 1–64 characters
     /// of lowercase letters, digits and hyphens, starting with a letter or digit.
-    pub fn new(id: impl Into<String>, name: impl Into<String>, glossary: Glossary, fit: FitDocument) -> Result<Self> {
+    pub fn new(
+        id: impl Into<String>,
+        name: impl Into<String>,
+        glossary: Glossary,
+        fit: FitDocument,
+    ) -> Result<Self> {
         let id = id.into();
         if !valid_id(&id) {
             return Err(ServerError::BadRequest(format!(
                 "{id:?} cannot name an analysis: use 1 to 64 lowercase letters, digits and hyphens"
             )));
         }
-        Ok(Analysis { id, name: name.into(), glossary, fit })
+        Ok(Analysis {
+            id,
+            name: name.into(),
+            glossary,
+            fit,
+        })
+    }
+
+    /// Builds an analysis from an engine fit and the spec it came from, through the same fit
+    /// document the JSON API and the command line write.
+    pub fn from_fit(
+        id: impl Into<String>,
+        name: impl Into<String>,
+        glossary: Glossary,
+        fit: &wardcast_engine::Fit,
+        spec: &wardcast_contract::spec::ModelSpec,
+    ) -> Result<Self> {
+        Analysis::new(id, name, glossary, FitDocument::from_fit(fit, spec)?)
     }
 
     /// The id used in URLs.
@@ -124,7 +159,9 @@ pub fn valid_id(id: &str) -> bool {
     !id.is_empty()
         && id.len() <= 64
         && !id.starts_with('-')
-        && id.bytes().all(|b| b.is_ascii_lowercase() || b.is_ascii_digit() || b == b'-')
+        && id
+            .bytes()
+            .all(|b| b.is_ascii_lowercase() || b.is_ascii_digit() || b == b'-')
 }
 
 /// The session's analyses, shared by all handlers. Cheap to clone.

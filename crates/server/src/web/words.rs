@@ -20,7 +20,11 @@ pub fn fmt_sig(x: f64, sig: usize) -> String {
         return "undefined".into();
     }
     if x.is_infinite() {
-        return if x > 0.0 { "infinite".into() } else { "minus infinite".into() };
+        return if x > 0.0 {
+            "infinite".into()
+        } else {
+            "minus infinite".into()
+        };
     }
     if x == 0.0 {
         return "0".into();
@@ -131,7 +135,10 @@ pub fn classify_terms(spec: &ModelSpec, terms: &[String]) -> Vec<TermKind> {
             break;
         }
         let prefix = format!("{}=", p.column);
-        let levels = terms[i..].iter().take_while(|t| t.starts_with(&prefix)).count();
+        let levels = terms[i..]
+            .iter()
+            .take_while(|t| t.starts_with(&prefix))
+            .count();
         if levels > 0 {
             for term in &terms[i..i + levels] {
                 kinds.push(TermKind::Level {
@@ -149,7 +156,10 @@ pub fn classify_terms(spec: &ModelSpec, terms: &[String]) -> Vec<TermKind> {
             Some(_) => *term != p.column && term.contains(p.column.as_str()),
         };
         kinds.push(if matches {
-            TermKind::Numeric { column: p.column.clone(), transform: p.transform }
+            TermKind::Numeric {
+                column: p.column.clone(),
+                transform: p.transform,
+            }
         } else {
             TermKind::Other(term.clone())
         });
@@ -198,13 +208,14 @@ fn transform_scale(t: TransformSpec) -> String {
         TransformSpec::Reciprocal => "reciprocal".into(),
         TransformSpec::Sqrt => "square root".into(),
         TransformSpec::Square => "square".into(),
-        TransformSpec::Power { lambda } if lambda == 0.0 => "logarithm".into(),
+        TransformSpec::Power { lambda: 0.0 } => "logarithm".into(),
         TransformSpec::Power { lambda } => format!("power {}", fmt_plain(lambda)),
     }
 }
 
 fn is_log(t: Option<TransformSpec>) -> bool {
-    matches!(t, Some(TransformSpec::Log)) || matches!(t, Some(TransformSpec::Power { lambda }) if lambda == 0.0)
+    matches!(t, Some(TransformSpec::Log))
+        || matches!(t, Some(TransformSpec::Power { lambda }) if lambda == 0.0)
 }
 
 /// "one percentage point", "$1,000", "1 (measured in outlets per 1,000 residents)".
@@ -241,19 +252,36 @@ struct ResponseSide {
 
 impl ResponseSide {
     fn new(info: &ColumnInfo) -> Self {
-        let unit = info.unit.as_deref().map(str::trim).filter(|u| !u.is_empty()).map(str::to_owned);
+        let unit = info
+            .unit
+            .as_deref()
+            .map(str::trim)
+            .filter(|u| !u.is_empty())
+            .map(str::to_owned);
         let countable_unit = unit.clone().filter(|u| u != "%" && u != "$");
-        ResponseSide { countable_unit, label: info.label.clone(), unit }
+        ResponseSide {
+            countable_unit,
+            label: info.label.clone(),
+            unit,
+        }
     }
 
     fn words(&self) -> (&'static str, &'static str) {
-        if self.countable_unit.is_some() { ("more", "fewer") } else { ("higher", "lower") }
+        if self.countable_unit.is_some() {
+            ("more", "fewer")
+        } else {
+            ("higher", "lower")
+        }
     }
 
     /// The size of a difference without its direction: "3.2", or "$40" for money.
     fn bare(&self, d: f64) -> String {
         let size = fmt_prose(d.abs());
-        if self.unit.as_deref() == Some("$") { format!("${size}") } else { size }
+        if self.unit.as_deref() == Some("$") {
+            format!("${size}")
+        } else {
+            size
+        }
     }
 
     /// "3.2 more" / "2 percentage points higher" / "$40 lower" for one end or the estimate.
@@ -297,7 +325,10 @@ impl ResponseSide {
 /// step for a plain predictor, ln 2 (a doubling) for a logged one, 1 otherwise.
 pub fn comparison_scale(kind: &TermKind, glossary: &Glossary) -> f64 {
     match kind {
-        TermKind::Numeric { column, transform: None } => glossary.column(column).step,
+        TermKind::Numeric {
+            column,
+            transform: None,
+        } => glossary.column(column).step,
         TermKind::Numeric { transform, .. } if is_log(*transform) => std::f64::consts::LN_2,
         _ => 1.0,
     }
@@ -307,7 +338,10 @@ pub fn comparison_scale(kind: &TermKind, glossary: &Glossary) -> f64 {
 /// "Median household income (+$1,000)", "Housing vacancy (doubled)", "District type: centre".
 pub fn comparison_label(kind: &TermKind, glossary: &Glossary) -> String {
     match kind {
-        TermKind::Numeric { column, transform: None } => {
+        TermKind::Numeric {
+            column,
+            transform: None,
+        } => {
             let info = glossary.column(column);
             let step = fmt_plain(info.step);
             let plural = if info.step == 1.0 { "" } else { "s" };
@@ -323,7 +357,10 @@ pub fn comparison_label(kind: &TermKind, glossary: &Glossary) -> String {
         }
         TermKind::Numeric { column, transform } => {
             let scale = transform.map(transform_scale).unwrap_or_default();
-            format!("{} ({scale}, +1)", capitalise(&glossary.column(column).label))
+            format!(
+                "{} ({scale}, +1)",
+                capitalise(&glossary.column(column).label)
+            )
         }
         TermKind::Level { column, level, .. } => {
             let label = glossary.column(column).label;
@@ -339,13 +376,25 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
     let areas = w.glossary.areas();
     let equal = "with the other indicators equal";
     let subject = match kind {
-        TermKind::Numeric { column, transform: None } => {
+        TermKind::Numeric {
+            column,
+            transform: None,
+        } => {
             let info = w.glossary.column(column);
-            format!("{} where {} is {} higher, {equal},", capitalise(areas), info.label, step_phrase(&info))
+            format!(
+                "{} where {} is {} higher, {equal},",
+                capitalise(areas),
+                info.label,
+                step_phrase(&info)
+            )
         }
         TermKind::Numeric { column, transform } if is_log(*transform) => {
             let info = w.glossary.column(column);
-            format!("{} where {} is twice as high, {equal},", capitalise(areas), info.label)
+            format!(
+                "{} where {} is twice as high, {equal},",
+                capitalise(areas),
+                info.label
+            )
         }
         TermKind::Numeric { column, transform } => {
             let info = w.glossary.column(column);
@@ -358,15 +407,25 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
                 info.label
             )
         }
-        TermKind::Level { column, level, reference } => {
+        TermKind::Level {
+            column,
+            level,
+            reference,
+        } => {
             let info = w.glossary.column(column);
             let against = match reference {
                 Some(r) => format!("compared with those where it is \u{201c}{r}\u{201d}"),
                 None => "compared with the reference group".into(),
             };
-            format!("{} where {} is \u{201c}{level}\u{201d}, {against} and {equal},", capitalise(areas), info.label)
+            format!(
+                "{} where {} is \u{201c}{level}\u{201d}, {against} and {equal},",
+                capitalise(areas),
+                info.label
+            )
         }
-        TermKind::Other(term) => format!("{} one unit higher in {term}, {equal},", capitalise(areas)),
+        TermKind::Other(term) => {
+            format!("{} one unit higher in {term}, {equal},", capitalise(areas))
+        }
     };
     let scale = comparison_scale(kind, w.glossary);
     let d = estimate.value * scale;
@@ -374,7 +433,11 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
     let response = w.glossary.column(w.response);
     let level = fmt_level(w.level);
     let crosses = lo <= 0.0 && hi >= 0.0 && lo < hi;
-    let caveat = if crosses { " The data are also consistent with no difference at all." } else { "" };
+    let caveat = if crosses {
+        " The data are also consistent with no difference at all."
+    } else {
+        ""
+    };
     match w.response_transform {
         None => {
             let side = ResponseSide::new(&response);
@@ -398,7 +461,11 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
             };
             let interval = if lo > 0.0 || hi < 0.0 {
                 let (a, b) = if lo > 0.0 { (lo, hi) } else { (hi, lo) };
-                format!("{}% to {}", fmt_prose(((a.exp() - 1.0) * 100.0).abs()), pct(b))
+                format!(
+                    "{}% to {}",
+                    fmt_prose(((a.exp() - 1.0) * 100.0).abs()),
+                    pct(b)
+                )
             } else {
                 format!("from {} to {}", pct(lo), pct(hi))
             };
@@ -409,7 +476,11 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
             )
         }
         Some(t) => {
-            let side = ResponseSide { countable_unit: None, label: format!("{} of {}", transform_scale(t), response.label), unit: None };
+            let side = ResponseSide {
+                countable_unit: None,
+                label: format!("{} of {}", transform_scale(t), response.label),
+                unit: None,
+            };
             format!(
                 "{subject} have on average {} ({level}% interval {}).{caveat}",
                 side.clause(d),

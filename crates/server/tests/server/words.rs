@@ -1,7 +1,8 @@
 //! Wording: number formatting, matching terms to the spec, and comparison sentences.
 
 use wardcast::web::words::{
-    Estimate, TermKind, Wording, classify_terms, comparison_sentence, fmt_level, fmt_p, fmt_plain, fmt_sig,
+    Estimate, TermKind, Wording, classify_terms, comparison_sentence, fmt_level, fmt_p, fmt_plain,
+    fmt_sig,
 };
 use wardcast::web::{ColumnInfo, Glossary};
 use wardcast_contract::spec::{ModelSpec, PredictorSpec, TransformSpec};
@@ -12,7 +13,7 @@ fn numbers_are_rounded_to_significant_digits() {
         (0.0, 3, "0"),
         (2.25, 3, "2.25"),
         (-6.5, 3, "-6.50"),
-        (3.14159, 3, "3.14"),
+        (3.14259, 3, "3.14"),
         (9.996, 3, "10.0"),
         (0.012345, 2, "0.012"),
         (1234.5, 3, "1,230"),
@@ -35,7 +36,13 @@ fn numbers_are_rounded_to_significant_digits() {
 
 #[test]
 fn plain_numbers_levels_and_p_values() {
-    let plain = [(1.0, "1"), (0.5, "0.5"), (1000.0, "1,000"), (2.25, "2.25"), (0.1, "0.1")];
+    let plain = [
+        (1.0, "1"),
+        (0.5, "0.5"),
+        (1000.0, "1,000"),
+        (2.25, "2.25"),
+        (0.1, "0.1"),
+    ];
     for (x, expected) in plain {
         assert_eq!(fmt_plain(x), expected, "fmt_plain({x})");
     }
@@ -56,41 +63,94 @@ fn plain_numbers_levels_and_p_values() {
     }
 }
 
-fn predictor(column: &str, transform: Option<TransformSpec>, reference: Option<&str>) -> PredictorSpec {
-    PredictorSpec { column: column.into(), transform, reference_level: reference.map(str::to_owned) }
+fn predictor(
+    column: &str,
+    transform: Option<TransformSpec>,
+    reference: Option<&str>,
+) -> PredictorSpec {
+    PredictorSpec {
+        column: column.into(),
+        transform,
+        reference_level: reference.map(str::to_owned),
+    }
 }
 
 #[test]
 fn terms_are_matched_to_the_spec_in_order() {
     let mut spec = ModelSpec::new("rate", ["a"]);
     spec.predictors.push(predictor("type", None, None));
-    spec.predictors.push(predictor("b", Some(TransformSpec::Log), None));
+    spec.predictors
+        .push(predictor("b", Some(TransformSpec::Log), None));
     spec.predictors.push(predictor("ab", None, None));
-    let terms: Vec<String> =
-        ["a", "type=centre", "type=mixed", "log(b)", "ab"].iter().map(|s| (*s).to_owned()).collect();
+    let terms: Vec<String> = ["a", "type=centre", "type=mixed", "log(b)", "ab"]
+        .iter()
+        .map(|s| (*s).to_owned())
+        .collect();
     let kinds = classify_terms(&spec, &terms);
     assert_eq!(
         kinds,
         vec![
-            TermKind::Numeric { column: "a".into(), transform: None },
-            TermKind::Level { column: "type".into(), level: "centre".into(), reference: None },
-            TermKind::Level { column: "type".into(), level: "mixed".into(), reference: None },
-            TermKind::Numeric { column: "b".into(), transform: Some(TransformSpec::Log) },
-            TermKind::Numeric { column: "ab".into(), transform: None },
+            TermKind::Numeric {
+                column: "a".into(),
+                transform: None
+            },
+            TermKind::Level {
+                column: "type".into(),
+                level: "centre".into(),
+                reference: None
+            },
+            TermKind::Level {
+                column: "type".into(),
+                level: "mixed".into(),
+                reference: None
+            },
+            TermKind::Numeric {
+                column: "b".into(),
+                transform: Some(TransformSpec::Log)
+            },
+            TermKind::Numeric {
+                column: "ab".into(),
+                transform: None
+            },
         ]
     );
     // Terms that do not line up with the spec are kept, described by their label only.
-    let odd: Vec<String> = ["zzz", "a", "extra"].iter().map(|s| (*s).to_owned()).collect();
+    let odd: Vec<String> = ["zzz", "a", "extra"]
+        .iter()
+        .map(|s| (*s).to_owned())
+        .collect();
     let kinds = classify_terms(&ModelSpec::new("rate", ["a"]), &odd);
-    assert_eq!(kinds, vec![TermKind::Other("zzz".into()), TermKind::Other("a".into()), TermKind::Other("extra".into())]);
+    assert_eq!(
+        kinds,
+        vec![
+            TermKind::Other("zzz".into()),
+            TermKind::Other("a".into()),
+            TermKind::Other("extra".into())
+        ]
+    );
 }
 
 fn glossary() -> Glossary {
     Glossary::new("districts")
-        .with_column("rate", ColumnInfo::new("assault rate", Some("assault incidents per 10,000 residents")))
+        .with_column(
+            "rate",
+            ColumnInfo::new(
+                "assault rate",
+                Some("assault incidents per 10,000 residents"),
+            ),
+        )
         .with_column("share", ColumnInfo::new("youth share", Some("%")))
-        .with_column("income", ColumnInfo::new("median household income", Some("$")).with_step(1000.0))
-        .with_column("outlets", ColumnInfo::new("alcohol outlet density", Some("outlets per 1,000 residents")))
+        .with_column(
+            "income",
+            ColumnInfo::new("median household income", Some("$")).with_step(1000.0),
+        )
+        .with_column(
+            "outlets",
+            ColumnInfo::new(
+                "alcohol outlet density",
+                Some("outlets per 1,000 residents"),
+            ),
+        )
         .with_column("vacancy", ColumnInfo::new("housing vacancy", Some("%")))
         .with_column("type", ColumnInfo::new("the district type", None))
         .with_column("pct_rate", ColumnInfo::new("clearance rate", Some("%")))
@@ -108,14 +168,22 @@ struct Case {
 
 fn check(case: Case) {
     let g = glossary();
-    let wording = Wording { glossary: &g, response: case.response, response_transform: case.response_transform, level: 0.95 };
+    let wording = Wording {
+        glossary: &g,
+        response: case.response,
+        response_transform: case.response_transform,
+        level: 0.95,
+    };
     let (value, low, high) = case.estimate;
     let sentence = comparison_sentence(&case.kind, Estimate { value, low, high }, &wording);
     assert_eq!(sentence, case.expected);
 }
 
 fn numeric(column: &str) -> TermKind {
-    TermKind::Numeric { column: column.into(), transform: None }
+    TermKind::Numeric {
+        column: column.into(),
+        transform: None,
+    }
 }
 
 #[test]
@@ -147,7 +215,10 @@ fn coefficients_become_comparisons_between_areas() {
                        (95% interval from 0.5 fewer to 2.9 more). The data are also consistent with no difference at all.",
         },
         Case {
-            kind: TermKind::Numeric { column: "vacancy".into(), transform: Some(TransformSpec::Log) },
+            kind: TermKind::Numeric {
+                column: "vacancy".into(),
+                transform: Some(TransformSpec::Log),
+            },
             estimate: (10.0, 5.0, 15.0),
             response: "rate",
             response_transform: None,
@@ -156,7 +227,11 @@ fn coefficients_become_comparisons_between_areas() {
                        have on average 6.93 more assault incidents per 10,000 residents (95% interval 3.47 to 10.4 more).",
         },
         Case {
-            kind: TermKind::Level { column: "type".into(), level: "centre".into(), reference: Some("residential".into()) },
+            kind: TermKind::Level {
+                column: "type".into(),
+                level: "centre".into(),
+                reference: Some("residential".into()),
+            },
             estimate: (-3.5, -6.5, -0.5),
             response: "rate",
             response_transform: None,
@@ -165,7 +240,11 @@ fn coefficients_become_comparisons_between_areas() {
                        incidents per 10,000 residents (95% interval 0.5 to 6.5 fewer).",
         },
         Case {
-            kind: TermKind::Level { column: "type".into(), level: "mixed".into(), reference: None },
+            kind: TermKind::Level {
+                column: "type".into(),
+                level: "mixed".into(),
+                reference: None,
+            },
             estimate: (1.0, 0.5, 1.5),
             response: "rate",
             response_transform: None,
@@ -210,7 +289,10 @@ fn coefficients_become_comparisons_between_areas() {
                        The data are also consistent with no difference at all.",
         },
         Case {
-            kind: TermKind::Numeric { column: "share".into(), transform: Some(TransformSpec::Sqrt) },
+            kind: TermKind::Numeric {
+                column: "share".into(),
+                transform: Some(TransformSpec::Sqrt),
+            },
             estimate: (2.0, 1.0, 3.0),
             response: "rate",
             response_transform: Some(TransformSpec::Sqrt),

@@ -14,10 +14,17 @@ use wardcast_contract::spec::{ExclusionSpec, ModelSpec};
 use wardcast_engine::diagnostics::{self, CheckOptions};
 use wardcast_engine::selection::{self, Candidates, CvOptions, SearchOptions};
 use wardcast_engine::{Column, Design, Fit, FitOptions, Table};
-use wardcast_report::brief::{BriefInput, CandidateModel, DatasetChecksum, ModelChoice, NestedTest};
+use wardcast_report::brief::{
+    BriefInput, CandidateModel, DatasetChecksum, ModelChoice, NestedTest,
+};
 
 /// The predictors of the reported model.
-pub const PREDICTORS: [&str; 4] = ["unemployment_pct", "vacancy_pct", "alcohol_outlets_per_1k", "median_income"];
+pub const PREDICTORS: [&str; 4] = [
+    "unemployment_pct",
+    "vacancy_pct",
+    "alcohol_outlets_per_1k",
+    "median_income",
+];
 
 /// The numeric indicators offered to the subset search.
 const CANDIDATES: [&str; 7] = [
@@ -36,26 +43,60 @@ fn demo_dir() -> PathBuf {
 
 /// Reads the demo districts into an engine table with the derived rate.
 pub fn demo_table() -> Table {
-    let text = std::fs::read_to_string(demo_dir().join("larkmoor_districts.csv")).expect("the demo CSV is readable");
+    let text = std::fs::read_to_string(demo_dir().join("larkmoor_districts.csv"))
+        .expect("the demo CSV is readable");
     let mut lines = text.lines().filter(|l| !l.trim().is_empty());
     let header: Vec<&str> = lines.next().expect("a header").split(',').collect();
     let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
-    assert!(rows.iter().all(|r| r.len() == header.len()), "every demo row has every column");
-    let col = |name: &str| header.iter().position(|h| *h == name).unwrap_or_else(|| panic!("no column {name}"));
-    let keys: Vec<String> = rows.iter().map(|r| r[col("district_code")].to_owned()).collect();
+    assert!(
+        rows.iter().all(|r| r.len() == header.len()),
+        "every demo row has every column"
+    );
+    let col = |name: &str| {
+        header
+            .iter()
+            .position(|h| *h == name)
+            .unwrap_or_else(|| panic!("no column {name}"))
+    };
+    let keys: Vec<String> = rows
+        .iter()
+        .map(|r| r[col("district_code")].to_owned())
+        .collect();
     let numeric = |name: &str| -> Vec<f64> {
-        rows.iter().map(|r| r[col(name)].parse::<f64>().unwrap_or_else(|_| panic!("{name} is numeric"))).collect()
+        rows.iter()
+            .map(|r| {
+                r[col(name)]
+                    .parse::<f64>()
+                    .unwrap_or_else(|_| panic!("{name} is numeric"))
+            })
+            .collect()
+    };
+    // Indicators may be blank (the demo plants a few gaps); a blank is a missing value.
+    let optional = |name: &str| -> Vec<Option<f64>> {
+        rows.iter()
+            .map(|r| {
+                let cell = r[col(name)].trim();
+                (!cell.is_empty()).then(|| {
+                    cell.parse::<f64>()
+                        .unwrap_or_else(|_| panic!("{name} is numeric"))
+                })
+            })
+            .collect()
     };
     let residents = numeric("residents");
     let assaults = numeric("assaults");
-    let rate: Vec<f64> = assaults.iter().zip(&residents).map(|(a, r)| a / r * 10_000.0).collect();
+    let rate: Vec<f64> = assaults
+        .iter()
+        .zip(&residents)
+        .map(|(a, r)| a / r * 10_000.0)
+        .collect();
     let mut columns = vec![
         Column::from_f64("residents", &residents),
         Column::from_f64("assaults", &assaults),
         Column::from_f64("assault_rate_per_10k", &rate),
     ];
     for name in CANDIDATES {
-        columns.push(Column::from_f64(name, &numeric(name)));
+        columns.push(Column::numeric(name, optional(name)));
     }
     let types: Vec<&str> = rows.iter().map(|r| r[col("district_type")]).collect();
     columns.push(Column::from_strs("district_type", &types));
@@ -64,7 +105,8 @@ pub fn demo_table() -> Table {
 
 /// The demo column metadata, read from demo/larkmoor_columns.json.
 pub fn demo_columns() -> Vec<ColumnMeta> {
-    let text = std::fs::read_to_string(demo_dir().join("larkmoor_columns.json")).expect("the demo metadata is readable");
+    let text = std::fs::read_to_string(demo_dir().join("larkmoor_columns.json"))
+        .expect("the demo metadata is readable");
     let value: serde_json::Value = serde_json::from_str(&text).expect("the demo metadata is JSON");
     value
         .as_array()
@@ -83,7 +125,10 @@ pub fn demo_columns() -> Vec<ColumnMeta> {
                 label: s("label"),
                 unit: s("unit").filter(|u| !u.is_empty()),
                 source: s("source"),
-                vintage: c.get("vintage").and_then(serde_json::Value::as_i64).and_then(|v| i32::try_from(v).ok()),
+                vintage: c
+                    .get("vintage")
+                    .and_then(serde_json::Value::as_i64)
+                    .and_then(|v| i32::try_from(v).ok()),
                 role,
             }
         })
@@ -102,7 +147,8 @@ pub fn demo_spec() -> ModelSpec {
 
 /// Fits the spec and builds the fit and checks documents.
 pub fn documents(table: &Table, spec: &ModelSpec) -> (FitDocument, ChecksDocument) {
-    let design = Design::build(table, &spec.to_engine().expect("a valid spec")).expect("the design builds");
+    let design =
+        Design::build(table, &spec.to_engine().expect("a valid spec")).expect("the design builds");
     let fit = Fit::new(&design, &FitOptions::default()).expect("the model fits");
     let fit_doc = FitDocument::from_fit(&fit, spec).expect("the fit document builds");
     let checks = diagnostics::run(&fit, &CheckOptions::default());
@@ -114,37 +160,68 @@ pub fn documents(table: &Table, spec: &ModelSpec) -> (FitDocument, ChecksDocumen
 pub fn model_choice(table: &Table, spec: &ModelSpec) -> ModelChoice {
     let mut full = ModelSpec::new("assault_rate_per_10k", CANDIDATES);
     full.exclusions = spec.exclusions.clone();
-    let design = Design::build(table, &full.to_engine().expect("a valid spec")).expect("the design builds");
+    let design =
+        Design::build(table, &full.to_engine().expect("a valid spec")).expect("the design builds");
     let cands = Candidates::from_design(&design).expect("candidates");
-    let search = selection::best_subsets(&cands, &SearchOptions { top: 1, ..SearchOptions::default() }).expect("the search runs");
-    let picked: Vec<&selection::SubsetModel> = search.models().filter(|m| (2..=5).contains(&m.size())).collect();
+    let search = selection::best_subsets(
+        &cands,
+        &SearchOptions {
+            top: 10,
+            ..SearchOptions::default()
+        },
+    )
+    .expect("the search runs");
+    let is_reported = |m: &selection::SubsetModel| {
+        let mut a = m.labels().to_vec();
+        a.sort();
+        let mut b: Vec<String> = PREDICTORS.iter().map(|s| (*s).to_owned()).collect();
+        b.sort();
+        a == b
+    };
+    // The best model of each size from two to five, and the reported model if it is not one of them.
+    let picked: Vec<&selection::SubsetModel> = search
+        .models()
+        .filter(|m| ((2..=5).contains(&m.size()) && m.rank_in_size() == 1) || is_reported(m))
+        .collect();
+    assert!(
+        picked.iter().any(|m| is_reported(m)),
+        "the reported model is among the top ten of its size"
+    );
     let terms: Vec<Vec<usize>> = picked.iter().map(|m| m.terms().to_vec()).collect();
     let seeds = [20_261_201_u64];
-    let cv = selection::cross_validate(&cands, &terms, &CvOptions { folds: 5, repeats: 3, seed: seeds[0], ..CvOptions::default() })
-        .expect("the CV runs");
-    let chosen_labels: Vec<String> = PREDICTORS.iter().map(|s| (*s).to_owned()).collect();
+    let cv = selection::cross_validate(
+        &cands,
+        &terms,
+        &CvOptions {
+            folds: 5,
+            repeats: 3,
+            seed: seeds[0],
+            ..CvOptions::default()
+        },
+    )
+    .expect("the CV runs");
     let candidates = picked
         .iter()
         .zip(cv.models())
-        .map(|(m, c)| {
-            let mut sorted = m.labels().to_vec();
-            sorted.sort();
-            let mut want = chosen_labels.clone();
-            want.sort();
-            CandidateModel {
-                predictors: m.labels().to_vec(),
-                adj_r_squared: m.adj_r_squared(),
-                cp: m.cp(),
-                aic: m.aic(),
-                sbc: m.sbc(),
-                press: m.press(),
-                cv_rmse: Some(c.rmse().mean),
-                cv_rmse_sd: Some(c.rmse().sd),
-                chosen: sorted == want,
-            }
+        .map(|(m, c)| CandidateModel {
+            predictors: m.labels().to_vec(),
+            adj_r_squared: m.adj_r_squared(),
+            cp: m.cp(),
+            aic: m.aic(),
+            sbc: m.sbc(),
+            press: m.press(),
+            cv_rmse: Some(c.rmse().mean),
+            cv_rmse_sd: Some(c.rmse().sd),
+            chosen: is_reported(m),
         })
         .collect();
-    let index = |name: &str| cands.column_names().iter().position(|c| c == name).expect("a candidate term");
+    let index = |name: &str| {
+        cands
+            .column_names()
+            .iter()
+            .position(|c| c == name)
+            .expect("a candidate term")
+    };
     let base: Vec<usize> = PREDICTORS.iter().map(|p| index(p)).collect();
     let nested_tests = CANDIDATES
         .iter()
@@ -152,7 +229,8 @@ pub fn model_choice(table: &Table, spec: &ModelSpec) -> ModelChoice {
         .map(|extra| {
             let mut larger = base.clone();
             larger.push(index(extra));
-            let t = selection::partial_f_test(&cands, &base, &larger, &Default::default()).expect("the F test runs");
+            let t = selection::partial_f_test(&cands, &base, &larger, &Default::default())
+                .expect("the F test runs");
             NestedTest {
                 smaller: t.smaller().to_vec(),
                 added: t.added().to_vec(),
@@ -164,7 +242,10 @@ pub fn model_choice(table: &Table, spec: &ModelSpec) -> ModelChoice {
         })
         .collect();
     ModelChoice {
-        search: format!("Exact best subsets of {} candidate indicators, the best model of each size kept.", CANDIDATES.len()),
+        search: format!(
+            "Exact best subsets of {} candidate indicators; the best model of each size from two to five and the reported model are compared.",
+            CANDIDATES.len()
+        ),
         criteria: vec![
             "adjusted R²".into(),
             "Mallows' Cp".into(),
@@ -184,7 +265,8 @@ pub fn model_choice(table: &Table, spec: &ModelSpec) -> ModelChoice {
 /// The SHA-256 of the demo CSV, standing in for a stored version's checksum.
 fn demo_checksum() -> String {
     use sha2::Digest;
-    let bytes = std::fs::read(demo_dir().join("larkmoor_districts.csv")).expect("the demo CSV is readable");
+    let bytes =
+        std::fs::read(demo_dir().join("larkmoor_districts.csv")).expect("the demo CSV is readable");
     format!("sha256:{}", hex::encode(sha2::Sha256::digest(&bytes)))
 }
 
@@ -205,7 +287,7 @@ pub fn demo_input() -> BriefInput {
         columns: demo_columns(),
         join: None,
         checksums: vec![DatasetChecksum { version_id: "larkmoor-districts@1".into(), checksum: demo_checksum() }],
-        data_notes: vec!["All 64 districts imported without problems; no missing values.".into()],
+        data_notes: vec!["Four indicator values are blank in the district table; those districts are left out of the model, as listed above.".into()],
         district_predictions: Vec::new(),
         counts_from_enforcement: true,
     }
