@@ -565,12 +565,9 @@ pub struct SavedAnalysis {
     pub question: String,
     /// Who prepared it.
     pub author: String,
-    /// The model spec document (response, predictors with transforms, weights, exclusions
-    /// with reasons), as defined in the spec module.
-    pub model_spec: serde_json::Value,
-    /// Rows left out, with reasons (also inside the spec; kept here for the brief's table).
-    #[serde(default)]
-    pub exclusions: Vec<Exclusion>,
+    /// The model spec: response, predictors with their transforms, weights, and the rows
+    /// left out with their reasons.
+    pub model_spec: crate::spec::ModelSpec,
     /// Cross-validation folds and seeds.
     pub cv: CvSettings,
     /// Scenario settings (what-if values), as the scenario page writes them.
@@ -588,9 +585,10 @@ pub struct SavedAnalysis {
 }
 
 impl SavedAnalysis {
-    /// Refuses a document written under another schema.
+    /// Refuses a document written under another schema, here or in its model spec.
     pub fn check_schema(&self) -> Result<()> {
-        check_schema(&self.schema_version)
+        check_schema(&self.schema_version)?;
+        check_schema(&self.model_spec.schema_version)
     }
 
     /// Whether `id` is a usable stable id: 1 to 64 ASCII letters, digits, `-` or `_`.

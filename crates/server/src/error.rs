@@ -50,6 +50,9 @@ pub enum ServerError {
     /// The engine rejected the input; its messages are written for the analyst.
     #[error(transparent)]
     Engine(#[from] wardcast_engine::EngineError),
+    /// The store refused a table or a file; its messages are written for the analyst.
+    #[error(transparent)]
+    Store(#[from] wardcast_store::StoreError),
     /// A contract document could not be built or read.
     #[error(transparent)]
     Contract(#[from] wardcast_contract::ContractError),
@@ -70,7 +73,9 @@ impl ServerError {
             ServerError::Forbidden(_) => StatusCode::FORBIDDEN,
             ServerError::Timeout => StatusCode::REQUEST_TIMEOUT,
             ServerError::TooLarge => StatusCode::PAYLOAD_TOO_LARGE,
-            ServerError::Engine(_) | ServerError::Contract(_) => StatusCode::UNPROCESSABLE_ENTITY,
+            ServerError::Engine(_) | ServerError::Contract(_) | ServerError::Store(_) => {
+                StatusCode::UNPROCESSABLE_ENTITY
+            }
             ServerError::Bind { .. }
             | ServerError::Serve(_)
             | ServerError::NoLanAddress(_)

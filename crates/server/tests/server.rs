@@ -4,6 +4,7 @@
 /// The test modules, in tests/server/.
 mod server {
     mod api;
+    mod cli;
     mod pages;
     mod security;
     mod words;
@@ -164,10 +165,13 @@ pub fn sample_glossary(odd_column: &str) -> Glossary {
         )
         .with_column(
             "unemployment_pct",
-            ColumnInfo::new("unemployment", Some("%")),
+            ColumnInfo::new("Unemployment", Some("% of labour force")),
         )
-        .with_column("vacancy_pct", ColumnInfo::new("housing vacancy", Some("%")))
-        .with_column("district_type", ColumnInfo::new("the district type", None))
+        .with_column(
+            "vacancy_pct",
+            ColumnInfo::new("Housing vacancy", Some("% of dwellings")),
+        )
+        .with_column("district_type", ColumnInfo::new("District type", None))
         .with_column(odd_column, ColumnInfo::new(odd_column, None))
 }
 

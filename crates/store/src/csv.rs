@@ -28,7 +28,12 @@ pub enum Delimiter {
 
 impl Delimiter {
     /// All delimiters, in the order ties are broken.
-    pub const ALL: [Delimiter; 4] = [Delimiter::Comma, Delimiter::Semicolon, Delimiter::Tab, Delimiter::Pipe];
+    pub const ALL: [Delimiter; 4] = [
+        Delimiter::Comma,
+        Delimiter::Semicolon,
+        Delimiter::Tab,
+        Delimiter::Pipe,
+    ];
 
     /// The byte.
     pub fn byte(self) -> u8 {
@@ -58,7 +63,9 @@ impl Delimiter {
             "tab" | "\t" | "\\t" => Ok(Delimiter::Tab),
             "pipe" | "|" => Ok(Delimiter::Pipe),
             other => Err(StoreError::BadChoice {
-                reason: format!("{other:?} is not a delimiter wardcast reads; use comma, semicolon, tab or pipe"),
+                reason: format!(
+                    "{other:?} is not a delimiter wardcast reads; use comma, semicolon, tab or pipe"
+                ),
             }),
         }
     }
@@ -89,7 +96,12 @@ enum ParseFault {
 }
 
 /// Parses one record starting at `pos`, filling `spans`. `pos` must be below `b.len()`.
-fn parse_record(b: &[u8], mut i: usize, delim: u8, spans: &mut Vec<Span>) -> std::result::Result<RecordEnd, ParseFault> {
+fn parse_record(
+    b: &[u8],
+    mut i: usize,
+    delim: u8,
+    spans: &mut Vec<Span>,
+) -> std::result::Result<RecordEnd, ParseFault> {
     spans.clear();
     let n = b.len();
     loop {
@@ -110,7 +122,11 @@ fn parse_record(b: &[u8], mut i: usize, delim: u8, spans: &mut Vec<Span>) -> std
                 }
                 break;
             }
-            spans.push(Span { start, end: i, escaped });
+            spans.push(Span {
+                start,
+                end: i,
+                escaped,
+            });
             i += 1;
             while i < n && b[i] == b' ' && delim != b' ' {
                 i += 1;
@@ -121,7 +137,13 @@ fn parse_record(b: &[u8], mut i: usize, delim: u8, spans: &mut Vec<Span>) -> std
             match b[i] {
                 c if c == delim => i += 1,
                 b'\n' => return Ok(RecordEnd::At(i + 1)),
-                b'\r' => return Ok(RecordEnd::At(if i + 1 < n && b[i + 1] == b'\n' { i + 2 } else { i + 1 })),
+                b'\r' => {
+                    return Ok(RecordEnd::At(if i + 1 < n && b[i + 1] == b'\n' {
+                        i + 2
+                    } else {
+                        i + 1
+                    }));
+                }
                 _ => return Err(ParseFault::AfterQuote { at: i }),
             }
         } else {
@@ -133,7 +155,11 @@ fn parse_record(b: &[u8], mut i: usize, delim: u8, spans: &mut Vec<Span>) -> std
                 }
                 i += 1;
             }
-            spans.push(Span { start, end: i, escaped: false });
+            spans.push(Span {
+                start,
+                end: i,
+                escaped: false,
+            });
             if i >= n {
                 return Ok(RecordEnd::At(n));
             }
@@ -151,8 +177,12 @@ fn parse_record(b: &[u8], mut i: usize, delim: u8, spans: &mut Vec<Span>) -> std
 
 fn fault_error(text: &str, fault: ParseFault) -> StoreError {
     match fault {
-        ParseFault::Unclosed { open } => StoreError::UnclosedQuote { line: line_of(text.as_bytes(), open) },
-        ParseFault::AfterQuote { at } => StoreError::TextAfterQuote { line: line_of(text.as_bytes(), at) },
+        ParseFault::Unclosed { open } => StoreError::UnclosedQuote {
+            line: line_of(text.as_bytes(), open),
+        },
+        ParseFault::AfterQuote { at } => StoreError::TextAfterQuote {
+            line: line_of(text.as_bytes(), at),
+        },
     }
 }
 
@@ -196,7 +226,11 @@ fn sample_counts(text: &str, delim: u8) -> (Vec<(usize, usize)>, Option<ParseFau
 }
 
 /// Sniffs the delimiter and the decimal separator.
-pub(crate) fn sniff(text: &str, delimiter: Option<Delimiter>, decimal: DecimalChoice) -> Result<Layout> {
+pub(crate) fn sniff(
+    text: &str,
+    delimiter: Option<Delimiter>,
+    decimal: DecimalChoice,
+) -> Result<Layout> {
     let (delimiter, delimiter_note) = match delimiter {
         Some(d) => (d, "chosen".to_owned()),
         None => {
@@ -212,7 +246,9 @@ pub(crate) fn sniff(text: &str, delimiter: Option<Delimiter>, decimal: DecimalCh
                 if fault.is_none() {
                     fault = f;
                 }
-                let Some(&(_, first)) = counts.first() else { continue };
+                let Some(&(_, first)) = counts.first() else {
+                    continue;
+                };
                 if counts.iter().any(|&(_, c)| c > 1) {
                     any_split = true;
                 }
@@ -250,11 +286,24 @@ pub(crate) fn sniff(text: &str, delimiter: Option<Delimiter>, decimal: DecimalCh
                 && let Some((d, n, m, total)) = plausible
             {
                 best = Some((d, n));
-                detail = Some(format!("sniffed: the header and {} of {} other sampled lines have {n} fields with a {}", m - 1, total - 1, d.name()));
+                detail = Some(format!(
+                    "sniffed: the header and {} of {} other sampled lines have {n} fields with a {}",
+                    m - 1,
+                    total - 1,
+                    d.name()
+                ));
             }
             match best {
-                Some((d, _)) if plausible.is_some_and(|p| p.0 == d) => (d, detail.clone().unwrap_or_default()),
-                Some((d, n)) => (d, format!("sniffed: every sampled line has {n} fields with a {}", d.name())),
+                Some((d, _)) if plausible.is_some_and(|p| p.0 == d) => {
+                    (d, detail.clone().unwrap_or_default())
+                }
+                Some((d, n)) => (
+                    d,
+                    format!(
+                        "sniffed: every sampled line has {n} fields with a {}",
+                        d.name()
+                    ),
+                ),
                 None if text.trim().is_empty() => return Err(StoreError::EmptyFile),
                 None if fault.is_some() && detail.is_none() && weak_detail.is_none() => {
                     return Err(fault.map_or(StoreError::NoDelimiter, |f| fault_error(text, f)));
@@ -262,7 +311,9 @@ pub(crate) fn sniff(text: &str, delimiter: Option<Delimiter>, decimal: DecimalCh
                 None if !any_split => return Err(StoreError::NoDelimiter),
                 None => {
                     return Err(StoreError::UnclearDelimiter {
-                        detail: detail.or(weak_detail).unwrap_or_else(|| "no consistent split".to_owned()),
+                        detail: detail
+                            .or(weak_detail)
+                            .unwrap_or_else(|| "no consistent split".to_owned()),
                     });
                 }
             }
@@ -296,14 +347,22 @@ pub(crate) fn sniff(text: &str, delimiter: Option<Delimiter>, decimal: DecimalCh
                         ),
                     )
                 } else {
-                    (false, "decimal point: no sampled number uses a decimal comma".to_owned())
+                    (
+                        false,
+                        "decimal point: no sampled number uses a decimal comma".to_owned(),
+                    )
                 }
             } else {
                 (false, "decimal point".to_owned())
             }
         }
     };
-    Ok(Layout { delimiter, delimiter_note, decimal_comma, decimal_note })
+    Ok(Layout {
+        delimiter,
+        delimiter_note,
+        decimal_comma,
+        decimal_note,
+    })
 }
 
 /// Counts sampled cells written like `12,5` and like `12.5`.
@@ -315,7 +374,9 @@ fn decimal_styles(text: &str, delim: u8) -> (usize, usize) {
     let mut pos = 0;
     let mut first = true;
     while pos < limit {
-        let Ok(RecordEnd::At(next)) = parse_record(b, pos, delim, &mut spans) else { break };
+        let Ok(RecordEnd::At(next)) = parse_record(b, pos, delim, &mut spans) else {
+            break;
+        };
         if !first {
             for s in &spans {
                 let cell = crate::infer::trim_blank(text.get(s.start..s.end).unwrap_or(""));
@@ -354,7 +415,13 @@ impl<'a> CsvSource<'a> {
     /// Split points are line breaks with an even number of quotes before them, which is
     /// where a record ends in a well-formed file; [`CsvSource::verify_parts`] checks the
     /// parse agrees, and callers fall back to one part when it does not.
-    pub fn new(text: &'a str, layout: &Layout, parts: usize, max_cell: usize, max_columns: usize) -> Result<Self> {
+    pub fn new(
+        text: &'a str,
+        layout: &Layout,
+        parts: usize,
+        max_cell: usize,
+        max_columns: usize,
+    ) -> Result<Self> {
         let b = text.as_bytes();
         let delim = layout.delimiter.byte();
         let mut spans = Vec::new();
@@ -364,14 +431,18 @@ impl<'a> CsvSource<'a> {
             if pos >= b.len() {
                 return Err(StoreError::EmptyFile);
             }
-            let RecordEnd::At(next) = parse_record(b, pos, delim, &mut spans).map_err(|f| fault_error(text, f))?;
+            let RecordEnd::At(next) =
+                parse_record(b, pos, delim, &mut spans).map_err(|f| fault_error(text, f))?;
             if !is_blank(&spans) {
                 break next;
             }
             pos = next;
         };
         if spans.len() > max_columns {
-            return Err(StoreError::TooManyColumns { found: spans.len(), limit: max_columns });
+            return Err(StoreError::TooManyColumns {
+                found: spans.len(),
+                limit: max_columns,
+            });
         }
         let mut header = Vec::with_capacity(spans.len());
         for (i, s) in spans.iter().enumerate() {
@@ -413,13 +484,23 @@ impl<'a> CsvSource<'a> {
             }
         }
         bounds.push(b.len());
-        let parts = bounds.windows(2).map(|w| (w[0], w[1])).filter(|(a, z)| a < z).collect();
-        Ok(Self { text, delim, header, parts })
+        let parts = bounds
+            .windows(2)
+            .map(|w| (w[0], w[1]))
+            .filter(|(a, z)| a < z)
+            .collect();
+        Ok(Self {
+            text,
+            delim,
+            header,
+            parts,
+        })
     }
 
     /// Collapses the parts into one (used when a split did not fall on a record boundary).
     pub fn single_part(&mut self) {
-        if let (Some(first), Some(last)) = (self.parts.first().copied(), self.parts.last().copied()) {
+        if let (Some(first), Some(last)) = (self.parts.first().copied(), self.parts.last().copied())
+        {
             self.parts = vec![(first.0, last.1)];
         }
     }
@@ -427,7 +508,11 @@ impl<'a> CsvSource<'a> {
 
 fn span_text<'t>(text: &'t str, s: &Span) -> Cow<'t, str> {
     let raw = text.get(s.start..s.end).unwrap_or("");
-    if s.escaped { Cow::Owned(raw.replace("\"\"", "\"")) } else { Cow::Borrowed(raw) }
+    if s.escaped {
+        Cow::Owned(raw.replace("\"\"", "\""))
+    } else {
+        Cow::Borrowed(raw)
+    }
 }
 
 impl RecordSource for CsvSource<'_> {
@@ -444,14 +529,21 @@ impl RecordSource for CsvSource<'_> {
     }
 
     fn visit(&self, part: usize, f: &mut dyn FnMut(&Row<'_>) -> Result<()>) -> Result<bool> {
-        let Some(&(start, end)) = self.parts.get(part) else { return Ok(true) };
+        let Some(&(start, end)) = self.parts.get(part) else {
+            return Ok(true);
+        };
         let b = self.text.as_bytes();
         let mut spans = Vec::with_capacity(self.header.len());
         let mut pos = start;
         while pos < end {
-            let RecordEnd::At(next) =
-                parse_record(b, pos, self.delim, &mut spans).map_err(|fault| fault_error(self.text, fault))?;
-            let row = Row::Csv { text: self.text, spans: &spans, offset: pos, blank: is_blank(&spans) };
+            let RecordEnd::At(next) = parse_record(b, pos, self.delim, &mut spans)
+                .map_err(|fault| fault_error(self.text, fault))?;
+            let row = Row::Csv {
+                text: self.text,
+                spans: &spans,
+                offset: pos,
+                blank: is_blank(&spans),
+            };
             f(&row)?;
             pos = next;
         }

@@ -52,7 +52,9 @@ pub enum StoreError {
         limit: usize,
     },
     /// One cell is longer than allowed.
-    #[error("row {row}, column {column:?} holds {bytes} bytes, more than the {limit} allowed in one cell; nothing was stored")]
+    #[error(
+        "row {row}, column {column:?} holds {bytes} bytes, more than the {limit} allowed in one cell; nothing was stored"
+    )]
     CellTooLong {
         /// The row number (header = row 1).
         row: usize,
@@ -66,7 +68,9 @@ pub enum StoreError {
 
     // ---- Text encoding ----
     /// The bytes are not UTF-8 and no other encoding was chosen.
-    #[error("the file is not valid UTF-8 (byte 0x{byte:02X} on line {line} cannot start or continue a character); if it was saved as Windows-1252 or Latin-1, import it again choosing that encoding (--encoding windows-1252 or --encoding latin1)")]
+    #[error(
+        "the file is not valid UTF-8 (byte 0x{byte:02X} on line {line} cannot start or continue a character); if it was saved as Windows-1252 or Latin-1, import it again choosing that encoding (--encoding windows-1252 or --encoding latin1)"
+    )]
     InvalidUtf8 {
         /// The line of the first bad byte.
         line: usize,
@@ -74,7 +78,9 @@ pub enum StoreError {
         byte: u8,
     },
     /// A UTF-16 file (by its byte-order mark) holds an invalid sequence.
-    #[error("the file starts with a UTF-16 byte-order mark but is not valid UTF-16 (broken character on line {line})")]
+    #[error(
+        "the file starts with a UTF-16 byte-order mark but is not valid UTF-16 (broken character on line {line})"
+    )]
     InvalidUtf16 {
         /// The line of the first broken character.
         line: usize,
@@ -104,10 +110,14 @@ pub enum StoreError {
         second: usize,
     },
     /// No delimiter splits the lines.
-    #[error("no field delimiter found: no line contains a comma, semicolon, tab or pipe outside quotes")]
+    #[error(
+        "no field delimiter found: no line contains a comma, semicolon, tab or pipe outside quotes"
+    )]
     NoDelimiter,
     /// Several delimiters appear but none splits every line alike.
-    #[error("could not tell the field delimiter: none of comma, semicolon, tab or pipe gives the same number of fields on every line ({detail}); choose the delimiter")]
+    #[error(
+        "could not tell the field delimiter: none of comma, semicolon, tab or pipe gives the same number of fields on every line ({detail}); choose the delimiter"
+    )]
     UnclearDelimiter {
         /// What the most likely delimiter gave.
         detail: String,
@@ -144,7 +154,9 @@ pub enum StoreError {
 
     // ---- Workbooks ----
     /// Too many entries in the workbook's zip container.
-    #[error("the workbook holds {entries} packed files, more than the {limit} allowed; it was not opened")]
+    #[error(
+        "the workbook holds {entries} packed files, more than the {limit} allowed; it was not opened"
+    )]
     ZipTooManyEntries {
         /// Entries found.
         entries: usize,
@@ -160,7 +172,9 @@ pub enum StoreError {
         limit: u64,
     },
     /// One entry is compressed suspiciously well.
-    #[error("the packed file {entry:?} in the workbook would expand {ratio} times, more than the {limit} times allowed; it was not opened")]
+    #[error(
+        "the packed file {entry:?} in the workbook would expand {ratio} times, more than the {limit} times allowed; it was not opened"
+    )]
     ZipRatio {
         /// The entry name.
         entry: String,
@@ -286,8 +300,16 @@ impl From<polars::prelude::PolarsError> for StoreError {
 
 impl StoreError {
     /// Builds an I/O error for a path.
-    pub(crate) fn io(action: &'static str, path: impl Into<PathBuf>, source: std::io::Error) -> Self {
-        StoreError::Io { action, path: path.into(), source }
+    pub(crate) fn io(
+        action: &'static str,
+        path: impl Into<PathBuf>,
+        source: std::io::Error,
+    ) -> Self {
+        StoreError::Io {
+            action,
+            path: path.into(),
+            source,
+        }
     }
 }
 

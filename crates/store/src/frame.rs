@@ -1,8 +1,8 @@
 //! Small helpers over polars frames: typed reads of a column and row gathering.
 
 use polars::prelude::{
-    Column, DataFrame, DataType, Float64Chunked, Int64Chunked, IntoColumn, IntoSeries, NewChunkedArray, PlSmallStr,
-    StringChunked,
+    Column, DataFrame, DataType, Float64Chunked, Int64Chunked, IntoColumn, IntoSeries,
+    NewChunkedArray, PlSmallStr, StringChunked,
 };
 use wardcast_contract::dataset::ColumnType;
 
@@ -19,7 +19,9 @@ pub(crate) fn column_type(col: &Column) -> Option<ColumnType> {
 }
 
 fn column<'a>(frame: &'a DataFrame, name: &str) -> Result<&'a Column> {
-    frame.column(name).map_err(|_| StoreError::UnknownColumn { name: name.to_owned() })
+    frame.column(name).map_err(|_| StoreError::UnknownColumn {
+        name: name.to_owned(),
+    })
 }
 
 /// The values of a numeric column as `f64`; `None` when it is text.
@@ -43,14 +45,19 @@ pub(crate) fn text_values(frame: &DataFrame, name: &str) -> Result<Option<Vec<Op
 
 /// The keys of a frame: every value present and distinct.
 pub(crate) fn keys(frame: &DataFrame, key: &str) -> Result<Vec<String>> {
-    let values = text_values(frame, key)?
-        .ok_or_else(|| StoreError::BadChoice { reason: format!("the key column {key:?} must be text") })?;
+    let values = text_values(frame, key)?.ok_or_else(|| StoreError::BadChoice {
+        reason: format!("the key column {key:?} must be text"),
+    })?;
     let mut out = Vec::with_capacity(values.len());
     let mut seen = std::collections::HashSet::with_capacity(values.len());
     for (i, v) in values.into_iter().enumerate() {
-        let v = v.ok_or_else(|| StoreError::BadChoice { reason: format!("row {} has no key", i + 1) })?;
+        let v = v.ok_or_else(|| StoreError::BadChoice {
+            reason: format!("row {} has no key", i + 1),
+        })?;
         if !seen.insert(v.clone()) {
-            return Err(StoreError::BadChoice { reason: format!("the key {v:?} appears on more than one row") });
+            return Err(StoreError::BadChoice {
+                reason: format!("the key {v:?} appears on more than one row"),
+            });
         }
         out.push(v);
     }
@@ -64,27 +71,47 @@ pub(crate) fn gather(col: &Column, idx: &[Option<usize>], name: &str) -> Result<
     let out = match s.dtype() {
         DataType::Int64 => {
             let v: Vec<Option<i64>> = s.i64()?.iter().collect();
-            Int64Chunked::from_iter_options(name, idx.iter().map(|i| i.and_then(|i| v.get(i).copied().flatten())))
-                .into_series()
+            Int64Chunked::from_iter_options(
+                name,
+                idx.iter()
+                    .map(|i| i.and_then(|i| v.get(i).copied().flatten())),
+            )
+            .into_series()
         }
         DataType::Float64 => {
             let v: Vec<Option<f64>> = s.f64()?.iter().collect();
-            Float64Chunked::from_iter_options(name, idx.iter().map(|i| i.and_then(|i| v.get(i).copied().flatten())))
-                .into_series()
+            Float64Chunked::from_iter_options(
+                name,
+                idx.iter()
+                    .map(|i| i.and_then(|i| v.get(i).copied().flatten())),
+            )
+            .into_series()
         }
         DataType::String => {
             let v: Vec<Option<&str>> = s.str()?.iter().collect();
-            StringChunked::from_iter_options(name, idx.iter().map(|i| i.and_then(|i| v.get(i).copied().flatten())))
-                .into_series()
+            StringChunked::from_iter_options(
+                name,
+                idx.iter()
+                    .map(|i| i.and_then(|i| v.get(i).copied().flatten())),
+            )
+            .into_series()
         }
-        other => return Err(StoreError::Frame(format!("column {:?} has an unsupported type {other}", s.name()))),
+        other => {
+            return Err(StoreError::Frame(format!(
+                "column {:?} has an unsupported type {other}",
+                s.name()
+            )));
+        }
     };
     Ok(out.into_column())
 }
 
 /// A decimal column from optional values; non-finite values become missing.
 pub(crate) fn f64_column(name: &str, values: &[Option<f64>]) -> Column {
-    Float64Chunked::from_iter_options(PlSmallStr::from_str(name), values.iter().map(|v| v.filter(|x| x.is_finite())))
-        .into_series()
-        .into_column()
+    Float64Chunked::from_iter_options(
+        PlSmallStr::from_str(name),
+        values.iter().map(|v| v.filter(|x| x.is_finite())),
+    )
+    .into_series()
+    .into_column()
 }

@@ -37,17 +37,28 @@ pub(crate) fn ensure_dir(dir: &Path) -> Result<()> {
 /// Writes `dir/name` atomically: the content goes to a temp file in the same folder, which
 /// is flushed to disk, renamed over the final name, and the folder is flushed. A reader
 /// sees either the old file or the complete new one, never a partial one.
-pub(crate) fn write_atomic<T>(dir: &Path, name: &str, write: impl FnOnce(&mut BufWriter<File>) -> Result<T>) -> Result<T> {
+pub(crate) fn write_atomic<T>(
+    dir: &Path,
+    name: &str,
+    write: impl FnOnce(&mut BufWriter<File>) -> Result<T>,
+) -> Result<T> {
     let n = COUNTER.fetch_add(1, Ordering::Relaxed);
     let tmp = dir.join(format!("{TEMP_PREFIX}{name}.{}.{n}", std::process::id()));
     let target = dir.join(name);
     let result = (|| {
-        let file = OpenOptions::new().write(true).create_new(true).open(&tmp).map_err(|e| StoreError::io("create", &tmp, e))?;
+        let file = OpenOptions::new()
+            .write(true)
+            .create_new(true)
+            .open(&tmp)
+            .map_err(|e| StoreError::io("create", &tmp, e))?;
         let mut w = BufWriter::with_capacity(1 << 20, file);
         let value = write(&mut w)?;
         w.flush().map_err(|e| StoreError::io("write", &tmp, e))?;
-        let file = w.into_inner().map_err(|e| StoreError::io("write", &tmp, e.into_error()))?;
-        file.sync_all().map_err(|e| StoreError::io("flush", &tmp, e))?;
+        let file = w
+            .into_inner()
+            .map_err(|e| StoreError::io("write", &tmp, e.into_error()))?;
+        file.sync_all()
+            .map_err(|e| StoreError::io("flush", &tmp, e))?;
         drop(file);
         std::fs::rename(&tmp, &target).map_err(|e| StoreError::io("rename", &tmp, e))?;
         sync_dir(dir)?;
@@ -68,12 +79,19 @@ pub(crate) struct HashingWriter<W> {
 
 impl<W: Write> HashingWriter<W> {
     pub fn new(inner: W) -> Self {
-        Self { inner, hasher: Sha256::new(), bytes: 0 }
+        Self {
+            inner,
+            hasher: Sha256::new(),
+            bytes: 0,
+        }
     }
 
     /// The checksum text (`sha256:` and hex) and the byte count.
     pub fn finish(self) -> (String, u64) {
-        (format!("sha256:{}", hex::encode(self.hasher.finalize())), self.bytes)
+        (
+            format!("sha256:{}", hex::encode(self.hasher.finalize())),
+            self.bytes,
+        )
     }
 }
 
@@ -97,5 +115,7 @@ pub(crate) fn checksum(bytes: &[u8]) -> String {
 
 /// A path relative to the data folder, for log lines.
 pub(crate) fn rel(root: &Path, path: &Path) -> PathBuf {
-    path.strip_prefix(root).map(Path::to_path_buf).unwrap_or_else(|_| path.to_path_buf())
+    path.strip_prefix(root)
+        .map(Path::to_path_buf)
+        .unwrap_or_else(|_| path.to_path_buf())
 }

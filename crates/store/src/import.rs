@@ -11,13 +11,13 @@ use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
 use std::path::Path;
 
 use polars::prelude::{
-    DataFrame, Float64Chunked, Int64Chunked, IntoColumn, IntoSeries, NewChunkedArray, PlSmallStr, StringChunked,
-    StringChunkedBuilder,
+    DataFrame, Float64Chunked, Int64Chunked, IntoColumn, IntoSeries, NewChunkedArray, PlSmallStr,
+    StringChunked, StringChunkedBuilder,
 };
 use wardcast_contract::SCHEMA_VERSION;
 use wardcast_contract::dataset::{
-    ColumnMeta, ColumnRole, ColumnSummary, ColumnType, DroppedRow, ImportReport, ManifestColumn, Problem, ProblemCell,
-    ProblemKind, SourceInfo,
+    ColumnMeta, ColumnRole, ColumnSummary, ColumnType, DroppedRow, ImportReport, ManifestColumn,
+    Problem, ProblemCell, ProblemKind, SourceInfo,
 };
 
 use crate::csv::{CsvSource, DecimalChoice, Delimiter};
@@ -28,7 +28,11 @@ use crate::text::{self, Encoding};
 
 /// `1 row` / `2 rows`.
 pub(crate) fn count(n: usize, one: &str, many: &str) -> String {
-    if n == 1 { format!("1 {one}") } else { format!("{n} {many}") }
+    if n == 1 {
+        format!("1 {one}")
+    } else {
+        format!("{n} {many}")
+    }
 }
 
 /// How many offending cells each problem lists.
@@ -63,7 +67,12 @@ pub struct ZipLimits {
 
 impl Default for ZipLimits {
     fn default() -> Self {
-        Self { max_entries: 10_000, max_unpacked_bytes: 512 * 1024 * 1024, max_ratio: 200, ratio_floor_bytes: 1024 * 1024 }
+        Self {
+            max_entries: 10_000,
+            max_unpacked_bytes: 512 * 1024 * 1024,
+            max_ratio: 200,
+            ratio_floor_bytes: 1024 * 1024,
+        }
     }
 }
 
@@ -86,14 +95,22 @@ impl Limits {
 
     /// The limits of the web app (a 256 MB upload limit).
     pub fn web() -> Self {
-        Self { max_bytes: Some(Self::WEB_UPLOAD_BYTES), ..Self::default() }
+        Self {
+            max_bytes: Some(Self::WEB_UPLOAD_BYTES),
+            ..Self::default()
+        }
     }
 }
 
 impl Default for Limits {
     /// The command line's limits: no size limit, 500 columns, 32 KB per cell.
     fn default() -> Self {
-        Self { max_bytes: None, max_columns: 500, max_cell_bytes: 32 * 1024, zip: ZipLimits::default() }
+        Self {
+            max_bytes: None,
+            max_columns: 500,
+            max_cell_bytes: 32 * 1024,
+            zip: ZipLimits::default(),
+        }
     }
 }
 
@@ -175,7 +192,13 @@ impl StagedImport {
         if self.report.key.is_none() {
             out.push("no key column was found; choose one".to_owned());
         }
-        out.extend(self.report.problems.iter().filter(|p| p.blocks_saving).map(|p| p.message.clone()));
+        out.extend(
+            self.report
+                .problems
+                .iter()
+                .filter(|p| p.blocks_saving)
+                .map(|p| p.message.clone()),
+        );
         out
     }
 }
@@ -186,15 +209,25 @@ pub fn import_file(path: &Path, options: &ImportOptions) -> Result<StagedImport>
     if let Some(limit) = options.limits.max_bytes
         && meta.len() > limit
     {
-        return Err(StoreError::TooLarge { bytes: meta.len(), limit });
+        return Err(StoreError::TooLarge {
+            bytes: meta.len(),
+            limit,
+        });
     }
     let bytes = std::fs::read(path).map_err(|e| StoreError::io("read", path, e))?;
-    let name = path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
     import_bytes(&bytes, &name, options)
 }
 
 /// Imports a file held in memory (an upload).
-pub fn import_bytes(bytes: &[u8], file_name: &str, options: &ImportOptions) -> Result<StagedImport> {
+pub fn import_bytes(
+    bytes: &[u8],
+    file_name: &str,
+    options: &ImportOptions,
+) -> Result<StagedImport> {
     let size = bytes.len() as u64;
     if let Some(limit) = options.limits.max_bytes
         && size > limit
@@ -230,7 +263,12 @@ pub fn import_bytes(bytes: &[u8], file_name: &str, options: &ImportOptions) -> R
                 sheet: Some(book.sheet.clone()),
                 sheets: book.sheets.clone(),
             };
-            let ctx = Context { decimal_comma: false, source, formulas: book.formulas, notes: book.notes };
+            let ctx = Context {
+                decimal_comma: false,
+                source,
+                formulas: book.formulas,
+                notes: book.notes,
+            };
             build(&book.grid, ctx, options)
         }
         Format::Csv | Format::Auto => {
@@ -241,11 +279,19 @@ pub fn import_bytes(bytes: &[u8], file_name: &str, options: &ImportOptions) -> R
             }
             let layout = crate::csv::sniff(text, options.delimiter, options.decimal)?;
             let threads = if options.threads == 0 {
-                std::thread::available_parallelism().map_or(1, |n| n.get()).min(4)
+                std::thread::available_parallelism()
+                    .map_or(1, |n| n.get())
+                    .min(4)
             } else {
                 options.threads
             };
-            let src = CsvSource::new(text, &layout, threads, options.limits.max_cell_bytes, options.limits.max_columns)?;
+            let src = CsvSource::new(
+                text,
+                &layout,
+                threads,
+                options.limits.max_cell_bytes,
+                options.limits.max_columns,
+            )?;
             let source = SourceInfo {
                 file_name: file_name.to_owned(),
                 format: "csv".into(),
@@ -253,12 +299,24 @@ pub fn import_bytes(bytes: &[u8], file_name: &str, options: &ImportOptions) -> R
                 encoding: decoded.encoding.to_owned(),
                 delimiter: Some(layout.delimiter.name().to_owned()),
                 delimiter_note: Some(layout.delimiter_note.clone()),
-                decimal_separator: Some(if layout.decimal_comma { "comma" } else { "point" }.to_owned()),
+                decimal_separator: Some(
+                    if layout.decimal_comma {
+                        "comma"
+                    } else {
+                        "point"
+                    }
+                    .to_owned(),
+                ),
                 decimal_note: Some(layout.decimal_note.clone()),
                 sheet: None,
                 sheets: Vec::new(),
             };
-            let ctx = Context { decimal_comma: layout.decimal_comma, source, formulas: Vec::new(), notes: Vec::new() };
+            let ctx = Context {
+                decimal_comma: layout.decimal_comma,
+                source,
+                formulas: Vec::new(),
+                notes: Vec::new(),
+            };
             build_csv(src, ctx, options)
         }
     }
@@ -281,7 +339,11 @@ pub(crate) struct Context {
 }
 
 /// Builds from a CSV source, retrying on one part when a split fell inside a record.
-fn build_csv(mut src: CsvSource<'_>, ctx: Context, options: &ImportOptions) -> Result<StagedImport> {
+fn build_csv(
+    mut src: CsvSource<'_>,
+    ctx: Context,
+    options: &ImportOptions,
+) -> Result<StagedImport> {
     if src.parts() > 1 && options.drop_rows.is_empty() {
         match scan_all(&src, &ctx, options, true) {
             Ok(Some(scan)) => return finish(&src, scan, ctx, options),
@@ -294,7 +356,8 @@ fn build_csv(mut src: CsvSource<'_>, ctx: Context, options: &ImportOptions) -> R
 }
 
 fn build<S: RecordSource>(src: &S, ctx: Context, options: &ImportOptions) -> Result<StagedImport> {
-    let scan = scan_all(src, &ctx, options, false)?.ok_or_else(|| StoreError::Frame("the file could not be split into rows".into()))?;
+    let scan = scan_all(src, &ctx, options, false)?
+        .ok_or_else(|| StoreError::Frame("the file could not be split into rows".into()))?;
     finish(src, scan, ctx, options)
 }
 
@@ -340,7 +403,10 @@ struct Scan {
 
 fn check_header(header: &[String], limits: &Limits) -> Result<()> {
     if header.len() > limits.max_columns {
-        return Err(StoreError::TooManyColumns { found: header.len(), limit: limits.max_columns });
+        return Err(StoreError::TooManyColumns {
+            found: header.len(),
+            limit: limits.max_columns,
+        });
     }
     let mut seen: HashMap<&str, usize> = HashMap::new();
     for (i, name) in header.iter().enumerate() {
@@ -348,7 +414,11 @@ fn check_header(header: &[String], limits: &Limits) -> Result<()> {
             return Err(StoreError::BlankHeader { position: i + 1 });
         }
         if let Some(&first) = seen.get(name.as_str()) {
-            return Err(StoreError::DuplicateHeader { name: name.clone(), first: first + 1, second: i + 1 });
+            return Err(StoreError::DuplicateHeader {
+                name: name.clone(),
+                first: first + 1,
+                second: i + 1,
+            });
         }
         seen.insert(name, i);
     }
@@ -357,23 +427,42 @@ fn check_header(header: &[String], limits: &Limits) -> Result<()> {
 
 fn check_options(header: &[String], options: &ImportOptions) -> Result<()> {
     let known = |name: &str| -> Result<()> {
-        if header.iter().any(|h| h == name) { Ok(()) } else { Err(StoreError::UnknownColumn { name: name.to_owned() }) }
+        if header.iter().any(|h| h == name) {
+            Ok(())
+        } else {
+            Err(StoreError::UnknownColumn {
+                name: name.to_owned(),
+            })
+        }
     };
     if let Some(k) = &options.key {
         known(k)?;
     }
-    for name in options.types.keys().chain(options.roles.keys()).chain(options.text_as_missing.iter()) {
+    for name in options
+        .types
+        .keys()
+        .chain(options.roles.keys())
+        .chain(options.text_as_missing.iter())
+    {
         known(name)?;
     }
     for d in &options.drop_rows {
         if d.reason.trim().is_empty() {
-            return Err(StoreError::BadChoice { reason: format!("dropping row {} needs a reason", d.row) });
+            return Err(StoreError::BadChoice {
+                reason: format!("dropping row {} needs a reason", d.row),
+            });
         }
     }
-    let key_roles: Vec<&String> =
-        options.roles.iter().filter(|(_, r)| **r == ColumnRole::Key).map(|(name, _)| name).collect();
+    let key_roles: Vec<&String> = options
+        .roles
+        .iter()
+        .filter(|(_, r)| **r == ColumnRole::Key)
+        .map(|(name, _)| name)
+        .collect();
     if key_roles.len() > 1 {
-        return Err(StoreError::BadChoice { reason: "only one column can have the key role".into() });
+        return Err(StoreError::BadChoice {
+            reason: "only one column can have the key role".into(),
+        });
     }
     if let (Some(k), Some(r)) = (&options.key, key_roles.first())
         && k != *r
@@ -387,19 +476,36 @@ fn check_options(header: &[String], options: &ImportOptions) -> Result<()> {
 
 /// Runs the first pass over every part. With `parallel`, parts run on threads and `None`
 /// is returned when any part did not end on its boundary (the split fell inside a record).
-fn scan_all<S: RecordSource>(src: &S, ctx: &Context, options: &ImportOptions, parallel: bool) -> Result<Option<Scan>> {
+fn scan_all<S: RecordSource>(
+    src: &S,
+    ctx: &Context,
+    options: &ImportOptions,
+    parallel: bool,
+) -> Result<Option<Scan>> {
     let header = src.header();
     check_header(header, &options.limits)?;
     check_options(header, options)?;
     let ncols = header.len();
     let drops: HashSet<usize> = options.drop_rows.iter().map(|d| d.row).collect();
-    let run = |part: usize| scan_part(src, part, ncols, ctx.decimal_comma, options.limits.max_cell_bytes, &drops);
+    let run = |part: usize| {
+        scan_part(
+            src,
+            part,
+            ncols,
+            ctx.decimal_comma,
+            options.limits.max_cell_bytes,
+            &drops,
+        )
+    };
     let parts: Vec<PartScan> = if parallel {
         let results: Vec<Result<PartScan>> = std::thread::scope(|s| {
             let handles: Vec<_> = (0..src.parts()).map(|p| s.spawn(move || run(p))).collect();
             handles
                 .into_iter()
-                .map(|h| h.join().unwrap_or_else(|_| Err(StoreError::Frame("a reader thread failed".into()))))
+                .map(|h| {
+                    h.join()
+                        .unwrap_or_else(|_| Err(StoreError::Frame("a reader thread failed".into())))
+                })
                 .collect()
         });
         let mut parts = Vec::with_capacity(results.len());
@@ -433,7 +539,11 @@ fn scan_all<S: RecordSource>(src: &S, ctx: &Context, options: &ImportOptions, pa
         }
     }
     let ragged_total: usize = scan.parts.iter().map(|p| p.ragged_total).sum();
-    if let Some((p, off)) = scan.parts.iter().zip(&scan.offsets).find(|(p, _)| p.ragged.is_some())
+    if let Some((p, off)) = scan
+        .parts
+        .iter()
+        .zip(&scan.offsets)
+        .find(|(p, _)| p.ragged.is_some())
         && let Some((ord, offset, found)) = p.ragged
     {
         return Err(StoreError::RaggedRows {
@@ -456,7 +566,10 @@ fn scan_part<S: RecordSource>(
     drops: &HashSet<usize>,
 ) -> Result<PartScan> {
     let first_row = src.header_row() + 1;
-    let mut out = PartScan { cols: (0..ncols).map(|_| ColScan::default()).collect(), ..PartScan::default() };
+    let mut out = PartScan {
+        cols: (0..ncols).map(|_| ColScan::default()).collect(),
+        ..PartScan::default()
+    };
     let mut stop = false;
     let visit = src.visit(part, &mut |row: &Row<'_>| {
         let ord = out.records;
@@ -486,7 +599,10 @@ fn scan_part<S: RecordSource>(
             }
         }
         if !drops.is_empty() && drops.contains(&(first_row + ord)) {
-            out.dropped.push((first_row + ord, (0..ncols).map(|c| row.cell(c).into_owned()).collect()));
+            out.dropped.push((
+                first_row + ord,
+                (0..ncols).map(|c| row.cell(c).into_owned()).collect(),
+            ));
             return Ok(());
         }
         out.ordinals.push(ord);
@@ -506,7 +622,8 @@ fn scan_part<S: RecordSource>(
                 CellClass::Text | CellClass::IntLeadingZero | CellClass::LongDigits => {
                     col.values.push(f64::NAN);
                     if col.examples.len() < EXAMPLES {
-                        col.examples.push((ord, infer::trim_blank(&cell).to_owned()));
+                        col.examples
+                            .push((ord, infer::trim_blank(&cell).to_owned()));
                     }
                 }
             }
@@ -535,23 +652,35 @@ fn text_part<S: RecordSource>(
     expected_rows: usize,
 ) -> Result<Vec<StringChunked>> {
     let first_row = src.header_row() + 1;
-    let mut builders: Vec<StringChunkedBuilder> =
-        text_cols.iter().map(|&c| StringChunkedBuilder::new(PlSmallStr::from_str(&header[c]), expected_rows)).collect();
+    let mut builders: Vec<StringChunkedBuilder> = text_cols
+        .iter()
+        .map(|&c| StringChunkedBuilder::new(PlSmallStr::from_str(&header[c]), expected_rows))
+        .collect();
     let mut ord = 0usize;
     src.visit(part, &mut |row: &Row<'_>| {
         let this = ord;
         ord += 1;
-        if row.is_blank() || row.len() != ncols || (!drops.is_empty() && drops.contains(&(first_row + this))) {
+        if row.is_blank()
+            || row.len() != ncols
+            || (!drops.is_empty() && drops.contains(&(first_row + this)))
+        {
             return Ok(());
         }
         for (b, &c) in builders.iter_mut().zip(text_cols) {
             let cell = row.cell(c);
             let t = infer::trim_blank(&cell);
-            if t.is_empty() { b.append_null() } else { b.append_value(t) }
+            if t.is_empty() {
+                b.append_null()
+            } else {
+                b.append_value(t)
+            }
         }
         Ok(())
     })?;
-    Ok(builders.into_iter().map(StringChunkedBuilder::finish).collect())
+    Ok(builders
+        .into_iter()
+        .map(StringChunkedBuilder::finish)
+        .collect())
 }
 
 /// Numeric summary of one column.
@@ -574,7 +703,11 @@ fn num_stats(chunks: &[Vec<f64>]) -> NumStats {
         min = min.min(v);
         max = max.max(v);
         let t = sum + v;
-        if sum.abs() >= v.abs() { comp += (sum - t) + v } else { comp += (v - t) + sum }
+        if sum.abs() >= v.abs() {
+            comp += (sum - t) + v
+        } else {
+            comp += (v - t) + sum
+        }
         sum = t;
     }
     if count == 0 {
@@ -592,15 +725,30 @@ fn num_stats(chunks: &[Vec<f64>]) -> NumStats {
         lower / 2.0 + upper / 2.0
     };
     let mean = (sum + comp) / count as f64;
-    NumStats { count, min: Some(min), max: Some(max), mean: mean.is_finite().then_some(mean), median: Some(median) }
+    NumStats {
+        count,
+        min: Some(min),
+        max: Some(max),
+        mean: mean.is_finite().then_some(mean),
+        median: Some(median),
+    }
 }
 
 /// Formats a number for a problem cell.
 fn show(v: f64) -> String {
-    if v.fract() == 0.0 && v.abs() < 1e15 { format!("{}", v as i64) } else { format!("{v}") }
+    if v.fract() == 0.0 && v.abs() < 1e15 {
+        format!("{}", v as i64)
+    } else {
+        format!("{v}")
+    }
 }
 
-fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOptions) -> Result<StagedImport> {
+fn finish<S: RecordSource>(
+    src: &S,
+    scan: Scan,
+    ctx: Context,
+    options: &ImportOptions,
+) -> Result<StagedImport> {
     let header = src.header().to_vec();
     let ncols = header.len();
     let first_row = src.header_row() + 1;
@@ -608,15 +756,21 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
     let blanks: usize = parts.iter().map(|p| p.blanks).sum();
 
     // Row numbers of the kept rows.
-    let mut row_numbers: Vec<usize> = Vec::with_capacity(parts.iter().map(|p| p.ordinals.len()).sum());
+    let mut row_numbers: Vec<usize> =
+        Vec::with_capacity(parts.iter().map(|p| p.ordinals.len()).sum());
     for (p, off) in parts.iter().zip(&offsets) {
         row_numbers.extend(p.ordinals.iter().map(|o| first_row + off + o));
     }
     // Dropped rows must all exist.
-    let dropped_cells: Vec<(usize, Vec<String>)> = parts.iter_mut().flat_map(|p| std::mem::take(&mut p.dropped)).collect();
+    let dropped_cells: Vec<(usize, Vec<String>)> = parts
+        .iter_mut()
+        .flat_map(|p| std::mem::take(&mut p.dropped))
+        .collect();
     for d in &options.drop_rows {
         if !dropped_cells.iter().any(|(r, _)| *r == d.row) {
-            let last = first_row + offsets.last().copied().unwrap_or(0) + parts.last().map_or(0, |p| p.records);
+            let last = first_row
+                + offsets.last().copied().unwrap_or(0)
+                + parts.last().map_or(0, |p| p.records);
             return Err(StoreError::BadChoice {
                 reason: format!(
                     "row {} cannot be dropped: it is not a data row (data rows are {first_row} to {})",
@@ -630,7 +784,9 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
         return Err(if dropped_cells.is_empty() {
             StoreError::HeaderOnly
         } else {
-            StoreError::BadChoice { reason: "every data row was dropped".into() }
+            StoreError::BadChoice {
+                reason: "every data row was dropped".into(),
+            }
         });
     }
     let nrows = row_numbers.len();
@@ -644,13 +800,19 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
             counts[c].merge(&col.counts);
             for (ord, value) in col.examples.drain(..) {
                 if examples[c].len() < EXAMPLES {
-                    examples[c].push(ProblemCell { row: first_row + off + ord, value });
+                    examples[c].push(ProblemCell {
+                        row: first_row + off + ord,
+                        value,
+                    });
                 }
             }
             if first_decimal[c].is_none()
                 && let Some((ord, value)) = col.first_decimal.take()
             {
-                first_decimal[c] = Some(ProblemCell { row: first_row + off + ord, value });
+                first_decimal[c] = Some(ProblemCell {
+                    row: first_row + off + ord,
+                    value,
+                });
             }
         }
     }
@@ -658,28 +820,53 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
     // Key: chosen, given the key role, named like one, or the first complete text or
     // whole-number column.
     let inferred: Vec<(ColumnType, String)> = counts.iter().map(infer::infer_type).collect();
-    let role_key = options.roles.iter().find(|(_, r)| **r == ColumnRole::Key).map(|(n, _)| n.clone());
+    let role_key = options
+        .roles
+        .iter()
+        .find(|(_, r)| **r == ColumnRole::Key)
+        .map(|(n, _)| n.clone());
     let (key, key_note) = if let Some(k) = options.key.clone().or(role_key) {
         let note = format!("{k:?} was chosen as the key");
         (Some(header.iter().position(|h| *h == k).unwrap_or(0)), note)
     } else {
         let by_name = (0..ncols)
-            .filter(|&c| infer::key_name_score(&header[c]) > 0 && !options.types.get(&header[c]).is_some_and(|t| t.is_numeric()))
+            .filter(|&c| {
+                infer::key_name_score(&header[c]) > 0
+                    && !options
+                        .types
+                        .get(&header[c])
+                        .is_some_and(|t| t.is_numeric())
+            })
             .max_by_key(|&c| (infer::key_name_score(&header[c]), std::cmp::Reverse(c)));
         match by_name {
-            Some(c) => (Some(c), format!("{:?} was taken as the key because of its name; choose another if that is wrong", header[c])),
+            Some(c) => (
+                Some(c),
+                format!(
+                    "{:?} was taken as the key because of its name; choose another if that is wrong",
+                    header[c]
+                ),
+            ),
             None => {
                 let complete = (0..ncols).find(|&c| {
                     counts[c].missing == 0
                         && matches!(inferred[c].0, ColumnType::Text | ColumnType::Integer)
-                        && !options.types.get(&header[c]).is_some_and(|t| t.is_numeric())
+                        && !options
+                            .types
+                            .get(&header[c])
+                            .is_some_and(|t| t.is_numeric())
                 });
                 match complete {
                     Some(c) => (
                         Some(c),
-                        format!("{:?} was taken as the key: it is the first column with a value on every row; choose another if that is wrong", header[c]),
+                        format!(
+                            "{:?} was taken as the key: it is the first column with a value on every row; choose another if that is wrong",
+                            header[c]
+                        ),
                     ),
-                    None => (None, "no column looks like a region key; choose one".to_owned()),
+                    None => (
+                        None,
+                        "no column looks like a region key; choose one".to_owned(),
+                    ),
                 }
             }
         }
@@ -692,7 +879,11 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
         let ty = if Some(c) == key {
             if chosen.is_some_and(|t| t.is_numeric()) {
                 return Err(StoreError::BadChoice {
-                    reason: format!("the key column {:?} must be text; it cannot be {}", header[c], chosen.map_or("", |t| t.name())),
+                    reason: format!(
+                        "the key column {:?} must be text; it cannot be {}",
+                        header[c],
+                        chosen.map_or("", |t| t.name())
+                    ),
                 });
             }
             ColumnType::Text
@@ -714,7 +905,9 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
     }
 
     // Pass 2: text columns. Their first-pass numbers are not needed.
-    let text_cols: Vec<usize> = (0..ncols).filter(|&c| types[c] == ColumnType::Text).collect();
+    let text_cols: Vec<usize> = (0..ncols)
+        .filter(|&c| types[c] == ColumnType::Text)
+        .collect();
     for p in parts.iter_mut() {
         for &c in &text_cols {
             p.cols[c].values = Vec::new();
@@ -730,7 +923,11 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
                 let handles: Vec<_> = (0..src.parts()).map(|p| s.spawn(move || run(p))).collect();
                 handles
                     .into_iter()
-                    .map(|h| h.join().unwrap_or_else(|_| Err(StoreError::Frame("a reader thread failed".into()))))
+                    .map(|h| {
+                        h.join().unwrap_or_else(|_| {
+                            Err(StoreError::Frame("a reader thread failed".into()))
+                        })
+                    })
                     .collect()
             })
         } else {
@@ -754,9 +951,19 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
         let ty = types[c];
         let is_key = Some(c) == key;
         let (inferred_ty, type_note) = if is_key {
-            (inferred[c].0, "text: the region key is kept exactly as written".to_owned())
+            (
+                inferred[c].0,
+                "text: the region key is kept exactly as written".to_owned(),
+            )
         } else if let Some(t) = options.types.get(name) {
-            (inferred[c].0, format!("{} (chosen; the values suggested {})", t.name(), inferred[c].0.name()))
+            (
+                inferred[c].0,
+                format!(
+                    "{} (chosen; the values suggested {})",
+                    t.name(),
+                    inferred[c].0.name()
+                ),
+            )
         } else {
             (inferred[c].0, inferred[c].1.clone())
         };
@@ -782,7 +989,10 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
             // One chunk per part, so every column has the same chunk layout.
             let mut parts_iter = std::mem::take(&mut text_chunks[c]).into_iter();
             let mut ca = parts_iter.next().unwrap_or_else(|| {
-                StringChunked::from_iter_options(PlSmallStr::from_str(name), std::iter::empty::<Option<&str>>())
+                StringChunked::from_iter_options(
+                    PlSmallStr::from_str(name),
+                    std::iter::empty::<Option<&str>>(),
+                )
             });
             for chunk in parts_iter {
                 ca.append_owned(chunk)?;
@@ -821,7 +1031,10 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
             }
             frame_cols.push(ca.into_series().into_column());
         } else {
-            let chunks: Vec<Vec<f64>> = parts.iter_mut().map(|p| std::mem::take(&mut p.cols[c].values)).collect();
+            let chunks: Vec<Vec<f64>> = parts
+                .iter_mut()
+                .map(|p| std::mem::take(&mut p.cols[c].values))
+                .collect();
             let stats = num_stats(&chunks);
             summary.count = stats.count;
             summary.missing = nrows - stats.count;
@@ -833,7 +1046,9 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
             role = r;
             summary.role = r;
             summary.role_note = note;
-            if matches!(r, ColumnRole::Count | ColumnRole::Population) && stats.min.is_some_and(|m| m < 0.0) {
+            if matches!(r, ColumnRole::Count | ColumnRole::Population)
+                && stats.min.is_some_and(|m| m < 0.0)
+            {
                 for (i, v) in chunks.iter().flatten().enumerate() {
                     if *v < 0.0 {
                         negative_total += 1;
@@ -867,7 +1082,12 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
             if stats.count == 0 {
                 problems.push(empty_problem(name));
             } else if stats.count >= 2 && stats.min == stats.max {
-                let first = chunks.iter().flatten().position(|v| !v.is_nan()).map(|i| row_numbers[i]).unwrap_or(first_row);
+                let first = chunks
+                    .iter()
+                    .flatten()
+                    .position(|v| !v.is_nan())
+                    .map(|i| row_numbers[i])
+                    .unwrap_or(first_row);
                 let value = stats.min.map(show).unwrap_or_default();
                 problems.push(constant_problem(name, Some((first, value.as_str()))));
             }
@@ -915,7 +1135,10 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
                 remedy: "drop those rows with a reason, or change the column's role if it is not a count".into(),
             });
         }
-        manifest_cols.push(ManifestColumn { column_type: ty, meta: ColumnMeta::new(name.clone(), role) });
+        manifest_cols.push(ManifestColumn {
+            column_type: ty,
+            meta: ColumnMeta::new(name.clone(), role),
+        });
         summaries.push(summary);
     }
 
@@ -934,25 +1157,40 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
         }
         summaries[summary_index].distinct = Some(seen.len());
         if !blank_rows.is_empty() {
-            problems.insert(0, Problem {
-                kind: ProblemKind::BlankKey,
-                column: name.clone(),
-                message: format!(
-                    "{} in column {name:?}",
-                    count(blank_rows.len(), "row has no key", "rows have no key")
-                ),
-                total: blank_rows.len(),
-                examples: blank_rows.iter().take(EXAMPLES).map(|&row| ProblemCell { row, value: String::new() }).collect(),
-                blocks_saving: true,
-                remedy: "drop those rows with a reason, fix the file, or choose another key column".into(),
-            });
+            problems.insert(
+                0,
+                Problem {
+                    kind: ProblemKind::BlankKey,
+                    column: name.clone(),
+                    message: format!(
+                        "{} in column {name:?}",
+                        count(blank_rows.len(), "row has no key", "rows have no key")
+                    ),
+                    total: blank_rows.len(),
+                    examples: blank_rows
+                        .iter()
+                        .take(EXAMPLES)
+                        .map(|&row| ProblemCell {
+                            row,
+                            value: String::new(),
+                        })
+                        .collect(),
+                    blocks_saving: true,
+                    remedy:
+                        "drop those rows with a reason, fix the file, or choose another key column"
+                            .into(),
+                },
+            );
         }
         let keys_repeated = seen.values().filter(|&&n| n > 1).count();
         if keys_repeated > 0 {
             let dup: Vec<(usize, &str)> = keys
                 .iter()
                 .enumerate()
-                .filter_map(|(i, v)| v.filter(|k| seen.get(k).is_some_and(|&n| n > 1)).map(|k| (row_numbers[i], k)))
+                .filter_map(|(i, v)| {
+                    v.filter(|k| seen.get(k).is_some_and(|&n| n > 1))
+                        .map(|k| (row_numbers[i], k))
+                })
                 .collect();
             problems.insert(0, Problem {
                 kind: ProblemKind::DuplicateKey,
@@ -994,12 +1232,19 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
     }
 
     // Dropped rows with their keys.
-    let reason_of: HashMap<usize, &str> = options.drop_rows.iter().map(|d| (d.row, d.reason.as_str())).collect();
+    let reason_of: HashMap<usize, &str> = options
+        .drop_rows
+        .iter()
+        .map(|d| (d.row, d.reason.as_str()))
+        .collect();
     let dropped_rows: Vec<DroppedRow> = dropped_cells
         .iter()
         .map(|(row, cells)| DroppedRow {
             row: *row,
-            key: key.and_then(|k| cells.get(k)).map(|s| infer::trim_blank(s).to_owned()).unwrap_or_default(),
+            key: key
+                .and_then(|k| cells.get(k))
+                .map(|s| infer::trim_blank(s).to_owned())
+                .unwrap_or_default(),
             reason: reason_of.get(row).copied().unwrap_or_default().to_owned(),
         })
         .collect();
@@ -1025,7 +1270,11 @@ fn finish<S: RecordSource>(src: &S, scan: Scan, ctx: Context, options: &ImportOp
         notes,
         can_save,
     };
-    Ok(StagedImport { report, frame, columns: manifest_cols })
+    Ok(StagedImport {
+        report,
+        frame,
+        columns: manifest_cols,
+    })
 }
 
 fn role_for(
@@ -1041,12 +1290,22 @@ fn role_for(
     if let Some(&r) = options.roles.get(name) {
         if ty == ColumnType::Text && r != ColumnRole::Group {
             return Err(StoreError::BadChoice {
-                reason: format!("column {name:?} holds text, so it can only be a group; it cannot be a {}", r.name()),
+                reason: format!(
+                    "column {name:?} holds text, so it can only be a group; it cannot be a {}",
+                    r.name()
+                ),
             });
         }
         return Ok((r, "chosen".into()));
     }
-    Ok(infer::infer_role(name, false, ValueFacts { column_type: ty, min }))
+    Ok(infer::infer_role(
+        name,
+        false,
+        ValueFacts {
+            column_type: ty,
+            min,
+        },
+    ))
 }
 
 fn empty_problem(name: &str) -> Problem {
@@ -1066,10 +1325,20 @@ fn constant_problem(name: &str, first: Option<(usize, &str)>) -> Problem {
     Problem {
         kind: ProblemKind::ConstantColumn,
         column: name.to_owned(),
-        message: format!("column {name:?} holds the same value ({value}) on every row that has one"),
+        message: format!(
+            "column {name:?} holds the same value ({value}) on every row that has one"
+        ),
         total: 1,
-        examples: first.map(|(row, v)| vec![ProblemCell { row, value: v.to_owned() }]).unwrap_or_default(),
+        examples: first
+            .map(|(row, v)| {
+                vec![ProblemCell {
+                    row,
+                    value: v.to_owned(),
+                }]
+            })
+            .unwrap_or_default(),
         blocks_saving: false,
-        remedy: "a constant column cannot explain differences between areas; check the export".into(),
+        remedy: "a constant column cannot explain differences between areas; check the export"
+            .into(),
     }
 }

@@ -25,7 +25,9 @@ pub use csv::{DecimalChoice, Delimiter};
 pub use dataset::{Dataset, Draft, Joined, Keyed, engine_table, join};
 pub use derive::DeriveSummary;
 pub use error::{Result, StoreError};
-pub use import::{Format, ImportOptions, Limits, RowDrop, StagedImport, ZipLimits, import_bytes, import_file};
+pub use import::{
+    Format, ImportOptions, Limits, RowDrop, StagedImport, ZipLimits, import_bytes, import_file,
+};
 pub use infer::read_number;
 pub use store::{LoadReport, Store, slug};
 pub use text::Encoding;

@@ -11,7 +11,7 @@
 //! - DFFITSᵢ = tᵢ·√(hᵢ/(1 − hᵢ)) and DFBETASᵢⱼ = (bⱼ − bⱼ₍ᵢ₎)/(s₍ᵢ₎·√((XᵀX)⁻¹ⱼⱼ)) (Belsley, Kuh &
 //!   Welsch 1980, §2.1), with bⱼ − bⱼ₍ᵢ₎ = ((XᵀX)⁻¹xᵢ)ⱼ·eᵢ/(1 − hᵢ). Cut-offs per Kutner et al.
 //!   (2004), §10.4: 1 and 1 for small and medium data, 2·√(p/n) and 2/√n for large data; the
-//!   size boundary is set by [`super::SizeRule`] (default: n ≤ 30 is small or medium).
+//!   size boundary is set by [`super::SizeRule`] (default: n ≤ 100 is small or medium).
 //! - Outliers: two-sided t p-values of the studentized deleted residuals on n − p − 1 degrees
 //!   of freedom, multiplied by n (Bonferroni), capped at 1 (Weisberg 2005, §9.4.3).
 //!

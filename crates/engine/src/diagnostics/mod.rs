@@ -133,7 +133,7 @@ impl Default for CheckOptions {
     fn default() -> Self {
         CheckOptions {
             alpha: 0.05,
-            size_rule: SizeRule::ByRows { small_max_rows: 30 },
+            size_rule: SizeRule::ByRows { small_max_rows: 100 },
             cv_folds: 10,
             cv_seed: 20_250_601,
             lambda_range: (-3.0, 3.0),

@@ -152,7 +152,8 @@ pub fn render(r: &ImportReport) -> String {
         how.push(format!("sheet {sheet:?} of {}", s.sheets.join(", ")));
     }
     out.push_str(&format!("{} ({}), {} bytes\n", s.file_name, how.join(", "), s.bytes));
-    if let Some(note) = &s.decimal_note {
+    // Only the informative notes (a sniffed decimal comma, mixed styles) are repeated.
+    if let Some(note) = s.decimal_note.as_ref().filter(|n| n.contains(':')) {
         out.push_str(&format!("  {note}\n"));
     }
     out.push_str(&format!("{} rows; key: {}\n  {}\n", r.rows, r.key.as_deref().unwrap_or("none"), r.key_note));

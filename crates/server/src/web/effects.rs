@@ -18,7 +18,7 @@ use super::pages::{Layout, Section, render};
 use super::state::Analysis;
 use super::words::{
     Estimate, TermKind, Wording, capitalise, classify_terms, comparison_label, comparison_scale,
-    comparison_sentence, fmt_level, fmt_num, fmt_p, fmt_prose,
+    comparison_sentence, fmt_level, fmt_num, fmt_p, fmt_prose, in_sentence,
 };
 use crate::error::Result;
 
@@ -242,13 +242,18 @@ impl EffectsPage {
 
         let n = fit.rows_used;
         let total = n + fit.rows_dropped.len();
-        let unit = response.unit.clone().map(|u| {
-            if u == "%" {
-                " percentage points".to_owned()
-            } else {
-                format!(" {u}")
-            }
-        });
+        let unit = response
+            .unit
+            .as_deref()
+            .map(str::trim)
+            .filter(|u| !u.is_empty())
+            .map(|u| {
+                if u.starts_with('%') {
+                    " percentage points".to_owned()
+                } else {
+                    format!(" {u}")
+                }
+            });
         let mut facts = vec![Fact {
             heading: format!("{} in the model", capitalise(areas)),
             value: format!("{n} of {total}"),
@@ -277,7 +282,7 @@ impl EffectsPage {
                  (R² = {}; adjusted for the number of indicators, {}). A large share does not make the \
                  indicators causes.{about}",
                 fmt_prose(fit.r_squared * 100.0),
-                response.label,
+                in_sentence(&response.label),
                 fmt_num(fit.r_squared),
                 fmt_num(fit.adj_r_squared)
             ),
@@ -292,13 +297,13 @@ impl EffectsPage {
             explanation: format!(
                 "Observed values of {} typically lie about {}{} from the model's values \
                  (the residual standard deviation, on {} residual degrees of freedom).",
-                response.label,
+                in_sentence(&response.label),
                 fmt_num(fit.residual_sd),
                 unit.unwrap_or_default(),
                 fit.df_residual
             ),
         });
-        facts.push(overall_fact(fit, &response.label));
+        facts.push(overall_fact(fit, &in_sentence(&response.label)));
         facts.push(Fact {
             heading: "For comparing models".into(),
             value: format!("AIC {} · SBC {}", fmt_num(fit.likelihood.aic), fmt_num(fit.likelihood.sbc)),
@@ -339,8 +344,8 @@ impl EffectsPage {
             ),
             id: analysis.id().to_owned(),
             lede: format!(
-                "How {} differs between {areas} that differ in the indicators, across {n} {areas}.",
-                response.label
+                "Comparisons of {} between {areas} that differ in the indicators, across {n} {areas}.",
+                in_sentence(&response.label)
             ),
             level_pct: fmt_level(spec.level),
             effects,
@@ -407,25 +412,21 @@ fn effect_chart(
             }
         })
         .collect();
+    // The title names the response; the axis stays short enough to print whole.
     let axis = match w.response_transform {
         None => Axis::new(
-            format!("Difference in {}", response.label),
-            match response.unit.as_deref() {
-                Some("%") => "percentage points".to_owned(),
+            "Difference",
+            match response.unit.as_deref().map(str::trim) {
+                Some(u) if u.starts_with('%') => "percentage points".to_owned(),
                 Some(u) => u.to_owned(),
                 None => String::new(),
             },
         ),
-        Some(_) if log_response => {
-            Axis::new(format!("Difference in typical {}", response.label), "%")
-        }
-        Some(t) => Axis::new(
-            format!("Difference in {} of {}", transform_name(t), response.label),
-            "",
-        ),
+        Some(_) if log_response => Axis::new("Difference in the typical value", "%"),
+        Some(t) => Axis::new(format!("Difference in {}", transform_name(t)), ""),
     };
     let plot = EffectPlot {
-        title: format!("How {} differs with each indicator", response.label),
+        title: format!("Differences in {}", in_sentence(&response.label)),
         axis,
         rows,
         interval_name: format!("{}% interval", fmt_level(w.level)),

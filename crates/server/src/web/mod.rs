@@ -16,6 +16,7 @@
 //! so that refusals, timeouts and 404s carry them too.
 
 mod api;
+pub mod demo;
 pub mod effects;
 mod join;
 pub mod pages;
@@ -184,9 +185,19 @@ impl Default for ServeOptions {
     }
 }
 
-/// Serves an empty workspace; see [`serve_with`].
+/// Loads the Larkmoor demo and serves it; see [`serve_with`].
 pub async fn serve(config: ServeConfig) -> Result<()> {
-    serve_with(config, ServeOptions::default()).await
+    let state = tokio::task::spawn_blocking(demo::demo_state)
+        .await
+        .map_err(|e| ServerError::Internal(format!("loading the demo stopped: {e}")))??;
+    serve_with(
+        config,
+        ServeOptions {
+            state,
+            ..ServeOptions::default()
+        },
+    )
+    .await
 }
 
 /// Binds the socket and serves until Ctrl-C. Local mode binds 127.0.0.1; `share` binds the LAN

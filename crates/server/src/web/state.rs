@@ -8,6 +8,7 @@
 use std::collections::BTreeMap;
 use std::sync::{Arc, RwLock};
 
+use wardcast_contract::dataset::ColumnMeta;
 use wardcast_contract::fit::FitDocument;
 
 use crate::error::{Result, ServerError};
@@ -75,6 +76,47 @@ impl Glossary {
         self
     }
 
+    /// A glossary from a dataset's column metadata: each column's label (its name when it has
+    /// none) and unit.
+    pub fn from_meta(areas_plural: impl Into<String>, metas: &[ColumnMeta]) -> Self {
+        let mut glossary = Glossary::new(areas_plural);
+        for m in metas {
+            let label = m.label.clone().unwrap_or_else(|| m.column.clone());
+            let unit = m.unit.as_deref().map(str::trim).filter(|u| !u.is_empty());
+            glossary
+                .columns
+                .insert(m.column.clone(), ColumnInfo::new(label, unit));
+        }
+        glossary
+    }
+
+    /// Chooses comparison steps from the data, so a sentence compares areas that differ by a
+    /// realistic amount: for every numeric column of `table` still at the default step of 1,
+    /// the step becomes the power of ten just below its standard deviation (an income with a
+    /// spread of 8,000 is compared per 1,000; a share with a spread of 3 stays per 1).
+    pub fn with_steps_from(mut self, table: &wardcast_engine::Table) -> Self {
+        for column in table.columns() {
+            let wardcast_engine::ColumnData::Numeric(values) = &column.data else {
+                continue;
+            };
+            let mut info = self.column(&column.name);
+            if info.step != 1.0 {
+                continue;
+            }
+            let xs: Vec<f64> = values
+                .iter()
+                .flatten()
+                .copied()
+                .filter(|x| x.is_finite())
+                .collect();
+            if let Some(step) = round_step(&xs) {
+                info.step = step;
+                self.columns.insert(column.name.clone(), info);
+            }
+        }
+        self
+    }
+
     /// The plural noun for the areas.
     pub fn areas(&self) -> &str {
         &self.areas
@@ -87,6 +129,21 @@ impl Glossary {
             .cloned()
             .unwrap_or_else(|| ColumnInfo::new(name, None))
     }
+}
+
+/// The power of ten at or just below the sample standard deviation of `xs`; `None` when
+/// there are fewer than two values or no spread.
+pub fn round_step(xs: &[f64]) -> Option<f64> {
+    if xs.len() < 2 {
+        return None;
+    }
+    let n = xs.len() as f64;
+    let mean = xs.iter().sum::<f64>() / n;
+    let sd = (xs.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
+    if !(sd.is_finite() && sd > 0.0) {
+        return None;
+    }
+    Some(10f64.powi(sd.log10().floor() as i32))
 }
 
 /// A fitted analysis as the pages show it. Immutable once built.

@@ -202,6 +202,18 @@ pub(crate) fn capitalise(text: &str) -> String {
     }
 }
 
+/// A label as it reads inside a sentence: "Vacant dwellings" becomes "vacant dwellings", but
+/// an acronym such as "HIV rate" keeps its capitals.
+pub(crate) fn in_sentence(label: &str) -> String {
+    let mut chars = label.chars();
+    match (chars.next(), chars.next()) {
+        (Some(first), Some(second)) if first.is_uppercase() && !second.is_uppercase() => {
+            first.to_lowercase().chain(label.chars().skip(1)).collect()
+        }
+        _ => label.to_owned(),
+    }
+}
+
 fn transform_scale(t: TransformSpec) -> String {
     match t {
         TransformSpec::Log => "logarithm".into(),
@@ -218,66 +230,86 @@ fn is_log(t: Option<TransformSpec>) -> bool {
         || matches!(t, Some(TransformSpec::Power { lambda }) if lambda == 0.0)
 }
 
-/// "one percentage point", "$1,000", "1 (measured in outlets per 1,000 residents)".
+/// How a unit reads in sentences.
+#[derive(Debug, Clone, PartialEq)]
+enum UnitKind {
+    /// A percentage ("%", "% of dwellings"): differences are percentage points.
+    Percent,
+    /// Money written with a leading `$`.
+    Dollars,
+    /// Anything else, read as a counted quantity: "incidents per 10,000 residents".
+    Counted(String),
+    /// No unit recorded.
+    Unknown,
+}
+
+impl UnitKind {
+    fn of(info: &ColumnInfo) -> Self {
+        match info.unit.as_deref().map(str::trim) {
+            None | Some("") => UnitKind::Unknown,
+            Some(u) if u.starts_with('%') => UnitKind::Percent,
+            Some(u) if u.starts_with('$') => UnitKind::Dollars,
+            Some(u) => UnitKind::Counted(u.to_owned()),
+        }
+    }
+}
+
+/// "outlets per 1,000 residents" → "outlet per 1,000 residents": the first word made singular
+/// by dropping a plain plural "s" (common practice for English unit words).
+fn singular_unit(unit: &str) -> String {
+    let (first, rest) = unit.split_once(' ').unwrap_or((unit, ""));
+    let first = match first.strip_suffix('s') {
+        Some(stem) if !stem.is_empty() && !stem.ends_with('s') => stem,
+        _ => first,
+    };
+    if rest.is_empty() {
+        first.to_owned()
+    } else {
+        format!("{first} {rest}")
+    }
+}
+
+/// The comparison step in words: "one percentage point", "$1,000", "one outlet per 1,000
+/// residents", "1,000 marks per household".
 fn step_phrase(info: &ColumnInfo) -> String {
     let step = fmt_plain(info.step);
     let one = info.step == 1.0;
-    match info.unit.as_deref().map(str::trim) {
-        Some("%") => {
-            if one {
-                "one percentage point".into()
-            } else {
-                format!("{step} percentage points")
-            }
-        }
-        Some("$") => format!("${step}"),
-        Some(u) if !u.is_empty() => format!("{step} (measured in {u})"),
-        _ => {
-            if one {
-                "one unit".into()
-            } else {
-                format!("{step} units")
-            }
-        }
+    match UnitKind::of(info) {
+        UnitKind::Percent if one => "one percentage point".into(),
+        UnitKind::Percent => format!("{step} percentage points"),
+        UnitKind::Dollars => format!("${step}"),
+        UnitKind::Counted(u) if one => format!("one {}", singular_unit(&u)),
+        UnitKind::Counted(u) => format!("{step} {u}"),
+        UnitKind::Unknown if one => "one unit".into(),
+        UnitKind::Unknown => format!("{step} units"),
     }
 }
 
 /// How the response side of a sentence reads for a difference `d` in the response.
 struct ResponseSide {
-    /// "assault incidents per 10,000 residents" for countable units, else `None`.
-    countable_unit: Option<String>,
+    unit: UnitKind,
     label: String,
-    unit: Option<String>,
 }
 
 impl ResponseSide {
     fn new(info: &ColumnInfo) -> Self {
-        let unit = info
-            .unit
-            .as_deref()
-            .map(str::trim)
-            .filter(|u| !u.is_empty())
-            .map(str::to_owned);
-        let countable_unit = unit.clone().filter(|u| u != "%" && u != "$");
         ResponseSide {
-            countable_unit,
-            label: info.label.clone(),
-            unit,
+            unit: UnitKind::of(info),
+            label: in_sentence(&info.label),
         }
     }
 
     fn words(&self) -> (&'static str, &'static str) {
-        if self.countable_unit.is_some() {
-            ("more", "fewer")
-        } else {
-            ("higher", "lower")
+        match self.unit {
+            UnitKind::Counted(_) => ("more", "fewer"),
+            _ => ("higher", "lower"),
         }
     }
 
     /// The size of a difference without its direction: "3.2", or "$40" for money.
     fn bare(&self, d: f64) -> String {
         let size = fmt_prose(d.abs());
-        if self.unit.as_deref() == Some("$") {
+        if self.unit == UnitKind::Dollars {
             format!("${size}")
         } else {
             size
@@ -292,20 +324,20 @@ impl ResponseSide {
         }
         let word = if d > 0.0 { up } else { down };
         let size = self.bare(d);
-        match self.unit.as_deref() {
-            Some("%") => format!("{size} percentage points {word}"),
+        match self.unit {
+            UnitKind::Percent => format!("{size} percentage points {word}"),
             _ => format!("{size} {word}"),
         }
     }
 
-    /// The main clause: "3.2 more assault incidents per 10,000 residents" or
-    /// "a median income $40 lower".
+    /// The main clause: "3.2 more incidents per 10,000 residents" or "a median income $40
+    /// lower".
     fn clause(&self, d: f64) -> String {
-        match &self.countable_unit {
-            Some(unit) if d != 0.0 => format!("{} {unit}", self.amount(d)),
-            Some(unit) => format!("the same number of {unit}"),
-            None if d == 0.0 => format!("the same {}", self.label),
-            None => format!("a {} {}", self.label, self.amount(d)),
+        match &self.unit {
+            UnitKind::Counted(unit) if d != 0.0 => format!("{} {unit}", self.amount(d)),
+            UnitKind::Counted(unit) => format!("the same number of {unit}"),
+            _ if d == 0.0 => format!("the same {}", self.label),
+            _ => format!("a {} {}", self.label, self.amount(d)),
         }
     }
 
@@ -334,8 +366,8 @@ pub fn comparison_scale(kind: &TermKind, glossary: &Glossary) -> f64 {
     }
 }
 
-/// A short label for a chart row, naming the comparison: "Unemployment (+1 point)",
-/// "Median household income (+$1,000)", "Housing vacancy (doubled)", "District type: centre".
+/// A short label for a chart row, naming the comparison: "Unemployment (+1 pt)",
+/// "Median household income (+$1,000)", "Vacant dwellings (doubled)", "District type: centre".
 pub fn comparison_label(kind: &TermKind, glossary: &Glossary) -> String {
     match kind {
         TermKind::Numeric {
@@ -345,9 +377,9 @@ pub fn comparison_label(kind: &TermKind, glossary: &Glossary) -> String {
             let info = glossary.column(column);
             let step = fmt_plain(info.step);
             let plural = if info.step == 1.0 { "" } else { "s" };
-            let change = match info.unit.as_deref().map(str::trim) {
-                Some("%") => format!("+{step} point{plural}"),
-                Some("$") => format!("+${step}"),
+            let change = match UnitKind::of(&info) {
+                UnitKind::Percent => format!("+{step} pt{plural}"),
+                UnitKind::Dollars => format!("+${step}"),
                 _ => format!("+{step}"),
             };
             format!("{} ({change})", capitalise(&info.label))
@@ -363,17 +395,17 @@ pub fn comparison_label(kind: &TermKind, glossary: &Glossary) -> String {
             )
         }
         TermKind::Level { column, level, .. } => {
-            let label = glossary.column(column).label;
-            let label = label.strip_prefix("the ").unwrap_or(&label);
-            format!("{}: {level}", capitalise(label))
+            format!("{}: {level}", capitalise(&glossary.column(column).label))
         }
         TermKind::Other(term) => term.clone(),
     }
 }
 
-/// Writes one coefficient as a comparison between areas.
+/// Writes one coefficient as a comparison between areas, in the form "Districts one percentage
+/// point higher in unemployment, with the other indicators equal, have on average 3.2 more
+/// incidents per 10,000 residents (95% interval 1.1 to 5.3 more)."
 pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>) -> String {
-    let areas = w.glossary.areas();
+    let areas = capitalise(w.glossary.areas());
     let equal = "with the other indicators equal";
     let subject = match kind {
         TermKind::Numeric {
@@ -382,29 +414,24 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
         } => {
             let info = w.glossary.column(column);
             format!(
-                "{} where {} is {} higher, {equal},",
-                capitalise(areas),
-                info.label,
-                step_phrase(&info)
+                "{areas} {} higher in {}, {equal},",
+                step_phrase(&info),
+                in_sentence(&info.label)
             )
         }
         TermKind::Numeric { column, transform } if is_log(*transform) => {
             let info = w.glossary.column(column);
             format!(
-                "{} where {} is twice as high, {equal},",
-                capitalise(areas),
-                info.label
+                "{areas} with twice the level of {}, {equal},",
+                in_sentence(&info.label)
             )
         }
         TermKind::Numeric { column, transform } => {
-            let info = w.glossary.column(column);
+            let label = in_sentence(&w.glossary.column(column).label);
             let scale_name = transform.map(transform_scale).unwrap_or_default();
             format!(
-                "{} where the {scale_name} of {} is one unit higher (how large a difference in {} that is \
-                 depends on its starting value), {equal},",
-                capitalise(areas),
-                info.label,
-                info.label
+                "{areas} one unit higher in the {scale_name} of {label} (how large a difference in \
+                 {label} that is depends on where it starts), {equal},"
             )
         }
         TermKind::Level {
@@ -412,20 +439,17 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
             level,
             reference,
         } => {
-            let info = w.glossary.column(column);
+            let label = in_sentence(&w.glossary.column(column).label);
             let against = match reference {
-                Some(r) => format!("compared with those where it is \u{201c}{r}\u{201d}"),
-                None => "compared with the reference group".into(),
+                Some(r) => format!("those in the \u{201c}{r}\u{201d} group"),
+                None => "those in the reference group".into(),
             };
             format!(
-                "{} where {} is \u{201c}{level}\u{201d}, {against} and {equal},",
-                capitalise(areas),
-                info.label
+                "{areas} in the \u{201c}{level}\u{201d} group of {label}, compared with {against} \
+                 and {equal},"
             )
         }
-        TermKind::Other(term) => {
-            format!("{} one unit higher in {term}, {equal},", capitalise(areas))
-        }
+        TermKind::Other(term) => format!("{areas} one unit higher in {term}, {equal},"),
     };
     let scale = comparison_scale(kind, w.glossary);
     let d = estimate.value * scale;
@@ -471,15 +495,14 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
             };
             format!(
                 "{subject} have a typical {} about {} ({level}% interval {interval}).{caveat}",
-                response.label,
+                in_sentence(&response.label),
                 pct(d)
             )
         }
         Some(t) => {
             let side = ResponseSide {
-                countable_unit: None,
-                label: format!("{} of {}", transform_scale(t), response.label),
-                unit: None,
+                unit: UnitKind::Unknown,
+                label: format!("{} of {}", transform_scale(t), in_sentence(&response.label)),
             };
             format!(
                 "{subject} have on average {} ({level}% interval {}).{caveat}",

@@ -105,15 +105,15 @@ async fn pages_have_no_inline_script_or_style() {
 async fn the_effects_page_leads_with_comparisons_and_keeps_the_cautions() {
     let html = page(&local_app(), "/analyses/demo", StatusCode::OK).await;
     // The comparison sentences come before the fit statistics and the tables.
-    let sentence = "Districts where unemployment is one percentage point higher, with the other indicators equal, \
+    let sentence = "Districts one percentage point higher in unemployment, with the other indicators equal, \
                     have on average 2.25 more assault incidents per 10,000 residents (95% interval 1.05 to 3.45 more).";
     let at_sentence = html.find(sentence).expect("the unemployment sentence");
     let at_fit = html.find("How well the model fits").expect("fit section");
     let at_tables = html.find("The workings").expect("tables");
     assert!(at_sentence < at_fit && at_fit < at_tables);
     for phrase in [
-        "Districts where housing vacancy is twice as high",
-        "Districts where the district type is \u{201c}centre\u{201d}, compared with those where it is \u{201c}residential\u{201d}",
+        "Districts with twice the level of housing vacancy",
+        "Districts in the \u{201c}centre\u{201d} group of district type, compared with those in the \u{201c}residential\u{201d} group",
         "The data are also consistent with no difference at all.",
         "account for 70% of the variation in assault rate",
         "62 of 63",
@@ -196,6 +196,22 @@ fn data_values(html: &str) -> Vec<f64> {
         .collect()
 }
 
+/// Checks that the page's coefficient table shows every coefficient of `doc` with full
+/// precision: per term, the estimate, standard error, t and the interval, in that order.
+fn assert_page_shows(html: &str, doc: &wardcast_contract::fit::FitDocument) {
+    let values = data_values(html);
+    for c in &doc.coefficients {
+        let t = c.t_value.as_f64().expect("t defined");
+        let row = [c.estimate, c.std_error, t, c.interval.low, c.interval.high];
+        let found = values.windows(5).any(|w| w == row);
+        assert!(
+            found,
+            "the page shows {} exactly as the API: {row:?}",
+            c.term
+        );
+    }
+}
+
 #[tokio::test]
 async fn the_page_shows_the_engine_fit_that_the_api_serves() {
     use wardcast_contract::spec::ModelSpec;
@@ -240,25 +256,57 @@ async fn the_page_shows_the_engine_fit_that_the_api_serves() {
     let app = router(state, SecurityConfig::local(PORT));
 
     let html = page(&app, "/analyses/small", StatusCode::OK).await;
-    // The API serves the engine's document byte for byte. (Compared as text: serde_json's
-    // default float parser may differ from the written value in the last place.)
+    // The API serves the engine's document byte for byte (compared as text, so the check does
+    // not depend on how a JSON reader parses floats).
     let response = send(&app, get("/api/analyses/small/fit")).await;
     assert_eq!(
         text(response).await,
         serde_json::to_string(&doc).expect("json")
     );
-    // The coefficient table lists, per term: estimate, standard error, t, and the interval.
-    let values = data_values(&html);
-    for c in &doc.coefficients {
-        let t = c.t_value.as_f64().expect("t defined");
-        let row = [c.estimate, c.std_error, t, c.interval.low, c.interval.high];
-        let found = values.windows(5).any(|w| w == row);
+    assert_page_shows(&html, &doc);
+    assert!(html.contains("Areas one percentage point higher in unemployment"));
+    assert!(html.contains("<svg"), "the interval chart is drawn");
+}
+
+#[tokio::test]
+async fn the_demo_starts_fitted_and_described_in_words() {
+    use wardcast::web::demo::{DEMO_ID, demo_spec, demo_state};
+
+    let app = router(
+        demo_state().expect("the demo loads"),
+        SecurityConfig::local(PORT),
+    );
+    let html = page(&app, &format!("/analyses/{DEMO_ID}"), StatusCode::OK).await;
+
+    // The same fit, computed independently of the web layer.
+    let table = wardcast::demo::larkmoor_table().expect("demo table");
+    let fitted = wardcast::analysis::Fitted::new(&table, &demo_spec()).expect("demo fit");
+    let doc = wardcast_contract::fit::FitDocument::from_fit(fitted.fit(), &demo_spec())
+        .expect("document");
+    assert_page_shows(&html, &doc);
+    let response = send(&app, get(&format!("/api/analyses/{DEMO_ID}/fit"))).await;
+    assert_eq!(
+        text(response).await,
+        serde_json::to_string(&doc).expect("json")
+    );
+
+    // One comparison sentence per indicator, using the demo's labels and units.
+    for phrase in [
+        "Districts one percentage point higher in unemployment, with the other indicators equal, have on average",
+        "percentage point higher in residents aged 15–24",
+        "percentage point higher in vacant dwellings",
+        "higher in licensed alcohol outlets",
+        "higher in after-school programme seats",
+        "incidents per 10,000 residents per year (95% interval",
+    ] {
         assert!(
-            found,
-            "the page shows {} exactly as the API: {row:?}",
-            c.term
+            html.contains(phrase),
+            "the demo page should contain {phrase:?}"
         );
     }
-    assert!(html.contains("Areas where unemployment is one percentage point higher"));
     assert!(html.contains("<svg"), "the interval chart is drawn");
+    let start = page(&app, "/", StatusCode::OK).await;
+    assert!(start.contains(&format!(
+        "<a href=\"/analyses/{DEMO_ID}\">Larkmoor demo</a>"
+    )));
 }

@@ -134,27 +134,36 @@ fn glossary() -> Glossary {
     Glossary::new("districts")
         .with_column(
             "rate",
-            ColumnInfo::new(
-                "assault rate",
-                Some("assault incidents per 10,000 residents"),
-            ),
+            ColumnInfo::new("Assault rate", Some("incidents per 10,000 residents")),
         )
-        .with_column("share", ColumnInfo::new("youth share", Some("%")))
+        .with_column(
+            "share",
+            ColumnInfo::new("Residents aged 15–24", Some("% of residents")),
+        )
         .with_column(
             "income",
-            ColumnInfo::new("median household income", Some("$")).with_step(1000.0),
+            ColumnInfo::new("Median household income", Some("$")).with_step(1000.0),
+        )
+        .with_column(
+            "marks",
+            ColumnInfo::new("Median household income", Some("marks per household"))
+                .with_step(1000.0),
         )
         .with_column(
             "outlets",
             ColumnInfo::new(
-                "alcohol outlet density",
+                "Licensed alcohol outlets",
                 Some("outlets per 1,000 residents"),
             ),
         )
-        .with_column("vacancy", ColumnInfo::new("housing vacancy", Some("%")))
-        .with_column("type", ColumnInfo::new("the district type", None))
-        .with_column("pct_rate", ColumnInfo::new("clearance rate", Some("%")))
-        .with_column("spend", ColumnInfo::new("spending", Some("$")))
+        .with_column(
+            "vacancy",
+            ColumnInfo::new("Vacant dwellings", Some("% of dwellings")),
+        )
+        .with_column("type", ColumnInfo::new("District type", None))
+        .with_column("pct_rate", ColumnInfo::new("Clearance rate", Some("%")))
+        .with_column("spend", ColumnInfo::new("Spending", Some("$")))
+        .with_column("hiv", ColumnInfo::new("HIV testing rate", Some("%")))
 }
 
 /// One sentence case: the term, the estimate and interval, the response and its transform.
@@ -194,25 +203,37 @@ fn coefficients_become_comparisons_between_areas() {
             estimate: (3.2, 1.1, 5.3),
             response: "rate",
             response_transform: None,
-            expected: "Districts where youth share is one percentage point higher, with the other indicators equal, \
-                       have on average 3.2 more assault incidents per 10,000 residents (95% interval 1.1 to 5.3 more).",
+            expected: "Districts one percentage point higher in residents aged 15–24, with the other \
+                       indicators equal, have on average 3.2 more incidents per 10,000 residents (95% \
+                       interval 1.1 to 5.3 more).",
         },
         Case {
             kind: numeric("income"),
             estimate: (-0.0021, -0.0038, -0.0004),
             response: "rate",
             response_transform: None,
-            expected: "Districts where median household income is $1,000 higher, with the other indicators equal, \
-                       have on average 2.1 fewer assault incidents per 10,000 residents (95% interval 0.4 to 3.8 fewer).",
+            expected: "Districts $1,000 higher in median household income, with the other indicators \
+                       equal, have on average 2.1 fewer incidents per 10,000 residents (95% interval 0.4 \
+                       to 3.8 fewer).",
+        },
+        Case {
+            kind: numeric("marks"),
+            estimate: (-0.0021, -0.0038, -0.0004),
+            response: "rate",
+            response_transform: None,
+            expected: "Districts 1,000 marks per household higher in median household income, with the \
+                       other indicators equal, have on average 2.1 fewer incidents per 10,000 residents \
+                       (95% interval 0.4 to 3.8 fewer).",
         },
         Case {
             kind: numeric("outlets"),
             estimate: (1.2, -0.5, 2.9),
             response: "rate",
             response_transform: None,
-            expected: "Districts where alcohol outlet density is 1 (measured in outlets per 1,000 residents) higher, \
-                       with the other indicators equal, have on average 1.2 more assault incidents per 10,000 residents \
-                       (95% interval from 0.5 fewer to 2.9 more). The data are also consistent with no difference at all.",
+            expected: "Districts one outlet per 1,000 residents higher in licensed alcohol outlets, with \
+                       the other indicators equal, have on average 1.2 more incidents per 10,000 residents \
+                       (95% interval from 0.5 fewer to 2.9 more). The data are also consistent with no \
+                       difference at all.",
         },
         Case {
             kind: TermKind::Numeric {
@@ -223,8 +244,9 @@ fn coefficients_become_comparisons_between_areas() {
             response: "rate",
             response_transform: None,
             // 10·ln 2 = 6.93, 5·ln 2 = 3.47, 15·ln 2 = 10.4.
-            expected: "Districts where housing vacancy is twice as high, with the other indicators equal, \
-                       have on average 6.93 more assault incidents per 10,000 residents (95% interval 3.47 to 10.4 more).",
+            expected: "Districts with twice the level of vacant dwellings, with the other indicators \
+                       equal, have on average 6.93 more incidents per 10,000 residents (95% interval 3.47 \
+                       to 10.4 more).",
         },
         Case {
             kind: TermKind::Level {
@@ -235,9 +257,9 @@ fn coefficients_become_comparisons_between_areas() {
             estimate: (-3.5, -6.5, -0.5),
             response: "rate",
             response_transform: None,
-            expected: "Districts where the district type is \u{201c}centre\u{201d}, compared with those where it is \
-                       \u{201c}residential\u{201d} and with the other indicators equal, have on average 3.5 fewer assault \
-                       incidents per 10,000 residents (95% interval 0.5 to 6.5 fewer).",
+            expected: "Districts in the \u{201c}centre\u{201d} group of district type, compared with those \
+                       in the \u{201c}residential\u{201d} group and with the other indicators equal, have on \
+                       average 3.5 fewer incidents per 10,000 residents (95% interval 0.5 to 6.5 fewer).",
         },
         Case {
             kind: TermKind::Level {
@@ -248,26 +270,36 @@ fn coefficients_become_comparisons_between_areas() {
             estimate: (1.0, 0.5, 1.5),
             response: "rate",
             response_transform: None,
-            expected: "Districts where the district type is \u{201c}mixed\u{201d}, compared with the reference group and \
-                       with the other indicators equal, have on average 1 more assault incidents per 10,000 residents \
-                       (95% interval 0.5 to 1.5 more).",
+            expected: "Districts in the \u{201c}mixed\u{201d} group of district type, compared with those in \
+                       the reference group and with the other indicators equal, have on average 1 more \
+                       incidents per 10,000 residents (95% interval 0.5 to 1.5 more).",
         },
         Case {
             kind: numeric("share"),
             estimate: (0.8, 0.2, 1.4),
             response: "pct_rate",
             response_transform: None,
-            expected: "Districts where youth share is one percentage point higher, with the other indicators equal, \
-                       have on average a clearance rate 0.8 percentage points higher (95% interval 0.2 to 1.4 \
-                       percentage points higher).",
+            expected: "Districts one percentage point higher in residents aged 15–24, with the other \
+                       indicators equal, have on average a clearance rate 0.8 percentage points higher \
+                       (95% interval 0.2 to 1.4 percentage points higher).",
         },
         Case {
             kind: numeric("share"),
             estimate: (-40.0, -60.0, -20.0),
             response: "spend",
             response_transform: None,
-            expected: "Districts where youth share is one percentage point higher, with the other indicators equal, \
-                       have on average a spending $40 lower (95% interval $20 to $60 lower).",
+            expected: "Districts one percentage point higher in residents aged 15–24, with the other \
+                       indicators equal, have on average a spending $40 lower (95% interval $20 to $60 \
+                       lower).",
+        },
+        Case {
+            kind: numeric("hiv"),
+            estimate: (0.5, 0.25, 0.75),
+            response: "rate",
+            response_transform: None,
+            expected: "Districts one percentage point higher in HIV testing rate, with the other \
+                       indicators equal, have on average 0.5 more incidents per 10,000 residents (95% \
+                       interval 0.25 to 0.75 more).",
         },
         Case {
             kind: numeric("share"),
@@ -275,8 +307,9 @@ fn coefficients_become_comparisons_between_areas() {
             estimate: (0.1, 0.05, 0.15),
             response: "rate",
             response_transform: Some(TransformSpec::Log),
-            expected: "Districts where youth share is one percentage point higher, with the other indicators equal, \
-                       have a typical assault rate about 10.5% higher (95% interval 5.13% to 16.2% higher).",
+            expected: "Districts one percentage point higher in residents aged 15–24, with the other \
+                       indicators equal, have a typical assault rate about 10.5% higher (95% interval \
+                       5.13% to 16.2% higher).",
         },
         Case {
             kind: numeric("share"),
@@ -284,9 +317,10 @@ fn coefficients_become_comparisons_between_areas() {
             estimate: (-0.1, -0.2, 0.05),
             response: "rate",
             response_transform: Some(TransformSpec::Log),
-            expected: "Districts where youth share is one percentage point higher, with the other indicators equal, \
-                       have a typical assault rate about 9.52% lower (95% interval from 18.1% lower to 5.13% higher). \
-                       The data are also consistent with no difference at all.",
+            expected: "Districts one percentage point higher in residents aged 15–24, with the other \
+                       indicators equal, have a typical assault rate about 9.52% lower (95% interval from \
+                       18.1% lower to 5.13% higher). The data are also consistent with no difference at \
+                       all.",
         },
         Case {
             kind: TermKind::Numeric {
@@ -296,20 +330,62 @@ fn coefficients_become_comparisons_between_areas() {
             estimate: (2.0, 1.0, 3.0),
             response: "rate",
             response_transform: Some(TransformSpec::Sqrt),
-            expected: "Districts where the square root of youth share is one unit higher (how large a difference in \
-                       youth share that is depends on its starting value), with the other indicators equal, have on \
-                       average a square root of assault rate 2 higher (95% interval 1 to 3 higher).",
+            expected: "Districts one unit higher in the square root of residents aged 15–24 (how large a \
+                       difference in residents aged 15–24 that is depends on where it starts), with the \
+                       other indicators equal, have on average a square root of assault rate 2 higher \
+                       (95% interval 1 to 3 higher).",
         },
         Case {
             kind: TermKind::Other("mystery".into()),
             estimate: (1.0, 0.5, 1.5),
             response: "unknown_response",
             response_transform: None,
-            expected: "Districts one unit higher in mystery, with the other indicators equal, have on average a \
-                       unknown_response 1 higher (95% interval 0.5 to 1.5 higher).",
+            expected: "Districts one unit higher in mystery, with the other indicators equal, have on \
+                       average a unknown_response 1 higher (95% interval 0.5 to 1.5 higher).",
         },
     ];
     for case in cases {
         check(case);
     }
+}
+
+#[test]
+fn comparison_steps_follow_the_spread_of_the_data() {
+    use wardcast::web::state::round_step;
+    // (values, expected step): the power of ten at or below the sample standard deviation.
+    let cases: [(&[f64], Option<f64>); 6] = [
+        (&[1.0, 2.0, 3.0, 4.0, 5.0], Some(1.0)), // sd 1.58
+        (&[21_000.0, 30_000.0, 38_000.0, 45_000.0], Some(10_000.0)), // sd 10,300
+        (&[21_000.0, 24_000.0, 27_000.0, 30_000.0], Some(1_000.0)), // sd 3,870
+        (&[0.11, 0.12, 0.16, 0.18], Some(0.01)), // sd 0.033
+        (&[5.0, 5.0, 5.0], None),
+        (&[5.0], None),
+    ];
+    for (xs, expected) in cases {
+        assert_eq!(round_step(xs), expected, "{xs:?}");
+    }
+}
+
+#[test]
+fn a_glossary_reads_labels_and_units_from_column_metadata() {
+    use wardcast_contract::dataset::{ColumnMeta, ColumnRole};
+    let mut unemployment = ColumnMeta::new("unemployment_pct", ColumnRole::Indicator);
+    unemployment.label = Some("Unemployment".into());
+    unemployment.unit = Some("% of labour force".into());
+    let mut code = ColumnMeta::new("district_code", ColumnRole::Key);
+    code.unit = Some(" ".into());
+    let g = Glossary::from_meta("districts", &[unemployment, code]);
+    assert_eq!(g.areas(), "districts");
+    assert_eq!(
+        g.column("unemployment_pct"),
+        ColumnInfo::new("Unemployment", Some("% of labour force"))
+    );
+    assert_eq!(
+        g.column("district_code"),
+        ColumnInfo::new("district_code", None)
+    );
+    assert_eq!(
+        g.column("not_described"),
+        ColumnInfo::new("not_described", None)
+    );
 }

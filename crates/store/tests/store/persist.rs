@@ -4,7 +4,8 @@
 use std::path::Path;
 
 use serde_json::json;
-use wardcast_contract::dataset::{CvSettings, Exclusion, SavedAnalysis};
+use wardcast_contract::dataset::{CvSettings, SavedAnalysis};
+use wardcast_contract::spec::{ExclusionSpec, ModelSpec};
 use wardcast_store::{ImportOptions, Store, import_bytes};
 
 use crate::common::{import, same_frame, temp_store};
@@ -17,9 +18,17 @@ fn analysis(dataset_version: &str) -> SavedAnalysis {
         dataset_version: dataset_version.into(),
         question: "Which districts should get the after-school expansion?".into(),
         author: "Budget office".into(),
-        model_spec: json!({"response": "rate", "predictors": ["unemployment_pct"]}),
-        exclusions: vec![Exclusion { key: "D2".into(), reason: "boundary change mid-year".into() }],
-        cv: CvSettings { folds: 5, seeds: vec![20_260_101] },
+        model_spec: ModelSpec {
+            exclusions: vec![ExclusionSpec {
+                key: "D2".into(),
+                reason: "boundary change mid-year".into(),
+            }],
+            ..ModelSpec::new("unemployment_pct", ["residents"])
+        },
+        cv: CvSettings {
+            folds: 5,
+            seeds: vec![20_260_101],
+        },
         scenario: json!({"unemployment_pct": -1.0}),
         allocation: json!({"budget": 250_000}),
         created_unix: 0,
@@ -32,13 +41,27 @@ fn save_and_load_round_trip() {
     let (dir, mut store) = temp_store();
     let staged = import("types.csv", &ImportOptions::default());
     let m1 = store.save_import("Test Districts", &staged).expect("save");
-    assert_eq!((m1.dataset.as_str(), m1.version, m1.version_id.as_str()), ("test-districts", 1, "test-districts@1"));
+    assert_eq!(
+        (m1.dataset.as_str(), m1.version, m1.version_id.as_str()),
+        ("test-districts", 1, "test-districts@1")
+    );
     assert!(m1.checksum.starts_with("sha256:") && m1.checksum.len() == 7 + 64);
-    let staged2 = import("duplicate_keys.csv", &ImportOptions {
-        drop_rows: [4, 6, 7, 8].iter().map(|&row| wardcast_store::RowDrop { row, reason: "repeat".into() }).collect(),
-        ..ImportOptions::default()
-    });
-    let m2 = store.save_import("Test Districts", &staged2).expect("save v2");
+    let staged2 = import(
+        "duplicate_keys.csv",
+        &ImportOptions {
+            drop_rows: [4, 6, 7, 8]
+                .iter()
+                .map(|&row| wardcast_store::RowDrop {
+                    row,
+                    reason: "repeat".into(),
+                })
+                .collect(),
+            ..ImportOptions::default()
+        },
+    );
+    let m2 = store
+        .save_import("Test Districts", &staged2)
+        .expect("save v2");
     assert_eq!(m2.version, 2);
     assert_eq!(m2.dropped_rows.len(), 4);
     drop(store);
@@ -55,20 +78,36 @@ fn save_and_load_round_trip() {
     assert_eq!(listing.len(), 1);
     assert_eq!(listing[0].versions, vec![1, 2]);
     assert_eq!(
-        store.load("test-districts@7").err().map(|e| e.to_string()).as_deref(),
+        store
+            .load("test-districts@7")
+            .err()
+            .map(|e| e.to_string())
+            .as_deref(),
         Some("the table \"test-districts\" has no version 7")
     );
-    assert_eq!(store.load("nothing").err().map(|e| e.to_string()).as_deref(), Some("no stored table is called \"nothing\""));
+    assert_eq!(
+        store
+            .load("nothing")
+            .err()
+            .map(|e| e.to_string())
+            .as_deref(),
+        Some("no stored table is called \"nothing\"")
+    );
 }
 
 #[test]
 fn a_refused_import_stores_nothing() {
     let (dir, mut store) = temp_store();
     let staged = import("duplicate_keys.csv", &ImportOptions::default());
-    let err = store.save_import("dups", &staged).err().map(|e| e.to_string());
+    let err = store
+        .save_import("dups", &staged)
+        .err()
+        .map(|e| e.to_string());
     assert_eq!(
         err.as_deref(),
-        Some("the table was not saved: 2 keys appear in column \"district_code\" on more than one row (5 rows); 1 row has no key in column \"district_code\"")
+        Some(
+            "the table was not saved: 2 keys appear in column \"district_code\" on more than one row (5 rows); 1 row has no key in column \"district_code\""
+        )
     );
     assert!(store.list().is_empty());
     let datasets = dir.path().join("data/datasets");
@@ -77,7 +116,11 @@ fn a_refused_import_stores_nothing() {
 
 fn files(dir: &Path) -> Vec<String> {
     let mut v: Vec<String> = std::fs::read_dir(dir)
-        .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.file_name().to_string_lossy().into_owned()).collect())
+        .map(|rd| {
+            rd.filter_map(|e| e.ok())
+                .map(|e| e.file_name().to_string_lossy().into_owned())
+                .collect()
+        })
         .unwrap_or_default();
     v.sort();
     v
@@ -109,33 +152,58 @@ fn start_up_removes_temp_files_and_quarantines_damage() {
     let log = report.log.join("\n");
     assert!(log.contains("removed stray temporary file datasets/a/.tmp-v000003.arrow.1.0 (left by an interrupted write)"), "{log}");
     assert!(log.contains("quarantined datasets/a/v000002.arrow: its checksum does not match the manifest; moved to quarantine/"), "{log}");
-    assert!(log.contains("quarantined datasets/a/v000002.json: its data file was damaged"), "{log}");
+    assert!(
+        log.contains("quarantined datasets/a/v000002.json: its data file was damaged"),
+        "{log}"
+    );
     assert!(
         log.contains("quarantined datasets/a/v000009.arrow: no manifest refers to it (a save was interrupted before its manifest was written)"),
         "{log}"
     );
-    assert!(log.contains("quarantined analyses/broken.json: the analysis cannot be read"), "{log}");
+    assert!(
+        log.contains("quarantined analyses/broken.json: the analysis cannot be read"),
+        "{log}"
+    );
     // The rest loads.
-    assert_eq!(store.versions("a").expect("a").iter().map(|m| m.version).collect::<Vec<_>>(), vec![1]);
+    assert_eq!(
+        store
+            .versions("a")
+            .expect("a")
+            .iter()
+            .map(|m| m.version)
+            .collect::<Vec<_>>(),
+        vec![1]
+    );
     assert!(store.load("b").is_ok());
-    assert_eq!(files(&a), vec!["v000001.arrow".to_owned(), "v000001.json".to_owned()]);
+    assert_eq!(
+        files(&a),
+        vec!["v000001.arrow".to_owned(), "v000001.json".to_owned()]
+    );
     assert_eq!(files(&root.join("quarantine")).len(), 4);
     // The next save takes the next free number after the loaded versions.
     drop(store);
     let (mut store, report) = Store::open(&root).expect("third open");
     assert!(report.log.is_empty(), "{:?}", report.log);
-    assert_eq!(store.save_import("a", &staged).expect("v2 again").version, 2);
+    assert_eq!(
+        store.save_import("a", &staged).expect("v2 again").version,
+        2
+    );
 }
 
 #[test]
 fn saved_analyses_persist_export_and_import() {
     let (dir, mut store) = temp_store();
-    let staged = import("text_in_numeric.csv", &ImportOptions {
-        text_as_missing: ["unemployment_pct".to_owned()].into(),
-        ..ImportOptions::default()
-    });
+    let staged = import(
+        "text_in_numeric.csv",
+        &ImportOptions {
+            text_as_missing: ["unemployment_pct".to_owned()].into(),
+            ..ImportOptions::default()
+        },
+    );
     store.save_import("districts", &staged).expect("save");
-    let saved = store.save_analysis(analysis("districts@1")).expect("save analysis");
+    let saved = store
+        .save_analysis(analysis("districts@1"))
+        .expect("save analysis");
     assert_eq!(saved.id.len(), 16);
     assert!(SavedAnalysis::is_valid_id(&saved.id));
     assert!(saved.created_unix > 0);
@@ -153,7 +221,10 @@ fn saved_analyses_persist_export_and_import() {
     drop(store);
     let (mut store, report) = Store::open(dir.path().join("data")).expect("reopen");
     assert_eq!(report.analyses, 1);
-    assert_eq!(store.analysis(&saved.id).expect("analysis").question, "Where should the new outreach team go?");
+    assert_eq!(
+        store.analysis(&saved.id).expect("analysis").question,
+        "Where should the new outreach team go?"
+    );
 
     // Importing the same file keeps its id; a different analysis under the same id gets a new one.
     let same = store.import_analysis(&export).expect("import same");
@@ -169,25 +240,44 @@ fn saved_analyses_persist_export_and_import() {
     other["schema_version"] = json!("wardcast.v0");
     std::fs::write(&export, other.to_string()).expect("write");
     assert_eq!(
-        store.import_analysis(&export).err().map(|e| e.to_string()).as_deref(),
+        store
+            .import_analysis(&export)
+            .err()
+            .map(|e| e.to_string())
+            .as_deref(),
         Some("this file uses schema wardcast.v0, but this version of wardcast reads wardcast.v1")
     );
     let mut bad = analysis("districts@1");
     bad.cv.folds = 1;
     assert_eq!(
-        store.save_analysis(bad).err().map(|e| e.to_string()).as_deref(),
+        store
+            .save_analysis(bad)
+            .err()
+            .map(|e| e.to_string())
+            .as_deref(),
         Some("the analysis cannot be saved: cross-validation needs at least 2 folds and one seed")
     );
     let mut bad = analysis("districts@1");
-    bad.exclusions[0].reason.clear();
+    bad.model_spec.exclusions[0].reason.clear();
     assert_eq!(
-        store.save_analysis(bad).err().map(|e| e.to_string()).as_deref(),
-        Some("the analysis cannot be saved: the exclusion of \"D2\" needs a reason")
+        store
+            .save_analysis(bad)
+            .err()
+            .map(|e| e.to_string())
+            .as_deref(),
+        Some(
+            "the analysis cannot be saved: its model spec is invalid (exclusions: the exclusion of \"D2\" needs a reason)"
+        )
     );
-    let missing = store.save_analysis(analysis("nowhere@1")).err().map(|e| e.to_string());
+    let missing = store
+        .save_analysis(analysis("nowhere@1"))
+        .err()
+        .map(|e| e.to_string());
     assert_eq!(
         missing.as_deref(),
-        Some("the analysis cannot be saved: its dataset version \"nowhere@1\" is not stored (no stored table is called \"nowhere\")")
+        Some(
+            "the analysis cannot be saved: its dataset version \"nowhere@1\" is not stored (no stored table is called \"nowhere\")"
+        )
     );
     store.delete_analysis(&renamed.id).expect("delete");
     assert_eq!(store.analyses().count(), 1);
@@ -196,9 +286,17 @@ fn saved_analyses_persist_export_and_import() {
 #[test]
 fn a_table_without_problems_saves_from_memory() {
     let (_dir, mut store) = temp_store();
-    let staged = import_bytes(b"code;value\nA;1,5\nB;2\n", "eu.csv", &ImportOptions::default()).expect("import");
+    let staged = import_bytes(
+        b"code;value\nA;1,5\nB;2\n",
+        "eu.csv",
+        &ImportOptions::default(),
+    )
+    .expect("import");
     let m = store.save_import("eu", &staged).expect("save");
     let loaded = store.load(&m.version_id).expect("load");
     assert!(same_frame(loaded.frame(), staged.frame()));
-    assert_eq!(loaded.keys().expect("keys"), vec!["A".to_owned(), "B".to_owned()]);
+    assert_eq!(
+        loaded.keys().expect("keys"),
+        vec!["A".to_owned(), "B".to_owned()]
+    );
 }
