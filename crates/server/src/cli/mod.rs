@@ -6,6 +6,7 @@
 
 pub mod brief;
 pub mod check;
+pub mod data;
 pub mod fit;
 pub mod model_args;
 pub mod select;
@@ -41,6 +42,10 @@ pub enum Command {
     Select(select::SelectArgs),
     /// Write the budgeting brief (PDF or HTML) or its tables (CSV or XLSX).
     Brief(brief::BriefArgs),
+    /// Validate a CSV or XLSX table and show every problem; `--save` stores it.
+    Import(data::ImportArgs),
+    /// List the stored tables and their versions.
+    Tables(data::TablesArgs),
 }
 
 /// Flags of `wardcast serve`.
@@ -66,6 +71,8 @@ pub fn main() -> ExitCode {
         Command::Check(args) => check::run(&args),
         Command::Select(args) => select::run(&args),
         Command::Brief(args) => brief::run(&args),
+        Command::Import(args) => data::run_import(&args),
+        Command::Tables(args) => data::run_tables(&args),
     };
     match outcome {
         Ok(code) => code,
@@ -77,6 +84,24 @@ pub fn main() -> ExitCode {
 }
 
 fn serve(args: ServeArgs) -> Result<ExitCode, String> {
+    // Open the data folder first: start-up verifies every stored version's checksum, removes
+    // stray temp files and quarantines damaged files, and says so before the server starts.
+    let dir = args
+        .data_dir
+        .clone()
+        .or_else(wardcast_store::Store::default_dir)
+        .ok_or("no data folder could be found; give one with --data-dir")?;
+    let (_store, report) = wardcast_store::Store::open(&dir).map_err(|e| e.to_string())?;
+    for line in &report.log {
+        eprintln!("wardcast: {line}");
+    }
+    eprintln!(
+        "wardcast: data folder {} holds {} datasets ({} versions) and {} saved analyses",
+        dir.display(),
+        report.datasets,
+        report.versions,
+        report.analyses
+    );
     let runtime = tokio::runtime::Builder::new_multi_thread()
         .enable_all()
         .build()
