@@ -13,7 +13,8 @@ fi
 (cd "$here" && npm ci --no-audit --no-fund --loglevel=error)
 
 cd "$root"
-cargo build -p wardcast
+# The same feature set as the workspace test build, so CI reuses its binary.
+cargo test --workspace --no-run
 port=${WARDCAST_TEST_PORT:-18787}
 data=$(mktemp -d)
 artifacts="$root/tests/artifacts/screens"

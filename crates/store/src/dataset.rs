@@ -79,6 +79,7 @@ impl Dataset {
             origin: Origin::Edit {
                 change: format!("edited from {}", self.manifest.version_id),
             },
+            keys_verified: true,
         }
     }
 }
@@ -119,6 +120,9 @@ pub struct Draft {
     pub(crate) exclusions: Vec<Exclusion>,
     pub(crate) dropped_rows: Vec<DroppedRow>,
     pub(crate) origin: Origin,
+    /// Whether the keys are known to be present and distinct (every constructor ensures
+    /// it; the check before writing runs when this is false).
+    pub(crate) keys_verified: bool,
 }
 
 impl Draft {
@@ -142,6 +146,7 @@ impl Draft {
             origin: Origin::Import {
                 source: staged.report().source.clone(),
             },
+            keys_verified: true,
         })
     }
 
@@ -312,7 +317,9 @@ impl Draft {
 
     /// Checks the draft is consistent before it is written.
     pub(crate) fn check(&self) -> Result<()> {
-        frame::keys(&self.frame, &self.key)?;
+        if !self.keys_verified {
+            frame::check_keys(&self.frame, &self.key)?;
+        }
         let names: Vec<&str> = self
             .frame
             .columns()
@@ -578,6 +585,12 @@ pub fn join<L: Keyed + ?Sized, R: Keyed + ?Sized>(
         });
     }
 
+    if lv.iter().any(Option::is_none) {
+        return Err(StoreError::Join {
+            reason: format!("{} has rows without a key", report.left),
+        });
+    }
+
     // Row selection.
     let mut left_idx = Vec::with_capacity(lv.len());
     let mut right_idx = Vec::with_capacity(lv.len());
@@ -681,6 +694,8 @@ pub fn join<L: Keyed + ?Sized, R: Keyed + ?Sized>(
             right: report.right.clone(),
             join: kind,
         },
+        // Left keys are distinct (no duplicates were reported) and present (checked above).
+        keys_verified: true,
     };
     Ok(Joined {
         report,

@@ -64,6 +64,29 @@ pub(crate) fn keys(frame: &DataFrame, key: &str) -> Result<Vec<String>> {
     Ok(out)
 }
 
+/// Checks that every key is present and distinct, without copying the keys.
+pub(crate) fn check_keys(frame: &DataFrame, key: &str) -> Result<()> {
+    let s = column(frame, key)?.as_materialized_series();
+    if s.dtype() != &DataType::String {
+        return Err(StoreError::BadChoice {
+            reason: format!("the key column {key:?} must be text"),
+        });
+    }
+    let ca = s.str()?;
+    let mut seen = std::collections::HashSet::with_capacity(ca.len());
+    for (i, v) in ca.iter().enumerate() {
+        let v = v.ok_or_else(|| StoreError::BadChoice {
+            reason: format!("row {} has no key", i + 1),
+        })?;
+        if !seen.insert(v) {
+            return Err(StoreError::BadChoice {
+                reason: format!("the key {v:?} appears on more than one row"),
+            });
+        }
+    }
+    Ok(())
+}
+
 /// Picks rows of a column by index (`None` gives a missing value), renaming it.
 pub(crate) fn gather(col: &Column, idx: &[Option<usize>], name: &str) -> Result<Column> {
     let s = col.as_materialized_series();

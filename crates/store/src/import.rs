@@ -11,8 +11,8 @@ use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
 use std::path::Path;
 
 use polars::prelude::{
-    DataFrame, Float64Chunked, Int64Chunked, IntoColumn, IntoSeries, NewChunkedArray, PlSmallStr,
-    StringChunked, StringChunkedBuilder,
+    DataFrame, DataType, Float64Chunked, Int64Chunked, IntoColumn, IntoSeries, NewChunkedArray,
+    PlSmallStr, Series, StringChunked, StringChunkedBuilder,
 };
 use wardcast_contract::SCHEMA_VERSION;
 use wardcast_contract::dataset::{
@@ -278,13 +278,7 @@ pub fn import_bytes(
                 return Err(StoreError::EmptyFile);
             }
             let layout = crate::csv::sniff(text, options.delimiter, options.decimal)?;
-            let threads = if options.threads == 0 {
-                std::thread::available_parallelism()
-                    .map_or(1, |n| n.get())
-                    .min(4)
-            } else {
-                options.threads
-            };
+            let threads = worker_count(options);
             let src = CsvSource::new(
                 text,
                 &layout,
@@ -734,6 +728,59 @@ fn num_stats(chunks: &[Vec<f64>]) -> NumStats {
     }
 }
 
+/// Builds a numeric column from its first-pass values (NaN marks a missing cell), keeping
+/// one chunk per part so every column has the same chunk layout.
+fn numeric_series(name: &str, ty: ColumnType, chunks: Vec<Vec<f64>>) -> Result<Series> {
+    let name = PlSmallStr::from_str(name);
+    let mut parts = chunks.into_iter();
+    let first = parts.next().unwrap_or_default();
+    if ty == ColumnType::Integer {
+        // Integers have at most 15 digits, so the conversion is exact.
+        let build = |chunk: Vec<f64>| {
+            Int64Chunked::from_iter_options(
+                name.clone(),
+                chunk.into_iter().map(|v| (!v.is_nan()).then_some(v as i64)),
+            )
+        };
+        let mut ca = build(first);
+        for chunk in parts {
+            ca.append_owned(build(chunk))?;
+        }
+        Ok(ca.into_series())
+    } else {
+        let build = |chunk: Vec<f64>| {
+            Float64Chunked::from_iter_options(
+                name.clone(),
+                chunk.into_iter().map(|v| (!v.is_nan()).then_some(v)),
+            )
+        };
+        let mut ca = build(first);
+        for chunk in parts {
+            ca.append_owned(build(chunk))?;
+        }
+        Ok(ca.into_series())
+    }
+}
+
+/// The values of a numeric column as `f64`.
+fn series_values(series: &Series) -> Result<Vec<Option<f64>>> {
+    Ok(match series.dtype() {
+        DataType::Int64 => series.i64()?.iter().map(|v| v.map(|x| x as f64)).collect(),
+        _ => series.f64()?.iter().collect(),
+    })
+}
+
+/// Worker threads for large inputs: as asked, or up to four as the machine allows.
+fn worker_count(options: &ImportOptions) -> usize {
+    if options.threads == 0 {
+        std::thread::available_parallelism()
+            .map_or(1, |n| n.get())
+            .min(4)
+    } else {
+        options.threads
+    }
+}
+
 /// Formats a number for a problem cell.
 fn show(v: f64) -> String {
     if v.fract() == 0.0 && v.abs() < 1e15 {
@@ -940,6 +987,64 @@ fn finish<S: RecordSource>(
         }
     }
 
+    // Numeric columns: statistics and typed arrays, built on worker threads column by
+    // column; each column's first-pass values are freed as soon as its array exists.
+    let mut built: Vec<Option<(NumStats, Series)>> = (0..ncols).map(|_| None).collect();
+    let work: Vec<(usize, Vec<Vec<f64>>)> = (0..ncols)
+        .filter(|&c| types[c] != ColumnType::Text)
+        .map(|c| {
+            (
+                c,
+                parts
+                    .iter_mut()
+                    .map(|p| std::mem::take(&mut p.cols[c].values))
+                    .collect(),
+            )
+        })
+        .collect();
+    let threads = if nrows < 50_000 {
+        1
+    } else {
+        worker_count(options).min(work.len()).max(1)
+    };
+    let mut buckets: Vec<Vec<(usize, Vec<Vec<f64>>)>> = (0..threads).map(|_| Vec::new()).collect();
+    for (i, item) in work.into_iter().enumerate() {
+        buckets[i % threads].push(item);
+    }
+    let build_bucket =
+        |bucket: Vec<(usize, Vec<Vec<f64>>)>| -> Result<Vec<(usize, NumStats, Series)>> {
+            bucket
+                .into_iter()
+                .map(|(c, chunks)| {
+                    let stats = num_stats(&chunks);
+                    let series = numeric_series(&header[c], types[c], chunks)?;
+                    Ok((c, stats, series))
+                })
+                .collect()
+        };
+    let results: Vec<Result<Vec<(usize, NumStats, Series)>>> = if threads == 1 {
+        buckets.into_iter().map(build_bucket).collect()
+    } else {
+        std::thread::scope(|s| {
+            let handles: Vec<_> = buckets
+                .into_iter()
+                .map(|b| s.spawn(move || build_bucket(b)))
+                .collect();
+            handles
+                .into_iter()
+                .map(|h| {
+                    h.join()
+                        .unwrap_or_else(|_| Err(StoreError::Frame("a worker thread failed".into())))
+                })
+                .collect()
+        })
+    };
+    for r in results {
+        for (c, stats, series) in r? {
+            built[c] = Some((stats, series));
+        }
+    }
+
     // Assemble columns, statistics and problems.
     let mut frame_cols = Vec::with_capacity(ncols);
     let mut summaries = Vec::with_capacity(ncols);
@@ -1031,11 +1136,9 @@ fn finish<S: RecordSource>(
             }
             frame_cols.push(ca.into_series().into_column());
         } else {
-            let chunks: Vec<Vec<f64>> = parts
-                .iter_mut()
-                .map(|p| std::mem::take(&mut p.cols[c].values))
-                .collect();
-            let stats = num_stats(&chunks);
+            let (stats, series) = built[c]
+                .take()
+                .ok_or_else(|| StoreError::Frame(format!("column {name:?} was not built")))?;
             summary.count = stats.count;
             summary.missing = nrows - stats.count;
             summary.min = stats.min;
@@ -1049,11 +1152,11 @@ fn finish<S: RecordSource>(
             if matches!(r, ColumnRole::Count | ColumnRole::Population)
                 && stats.min.is_some_and(|m| m < 0.0)
             {
-                for (i, v) in chunks.iter().flatten().enumerate() {
-                    if *v < 0.0 {
+                for (i, v) in series_values(&series)?.into_iter().enumerate() {
+                    if let Some(v) = v.filter(|v| *v < 0.0) {
                         negative_total += 1;
                         if negatives.len() < EXAMPLES {
-                            negatives.push((row_numbers[i], *v));
+                            negatives.push((row_numbers[i], v));
                         }
                     }
                 }
@@ -1082,42 +1185,14 @@ fn finish<S: RecordSource>(
             if stats.count == 0 {
                 problems.push(empty_problem(name));
             } else if stats.count >= 2 && stats.min == stats.max {
-                let first = chunks
+                let first = series_values(&series)?
                     .iter()
-                    .flatten()
-                    .position(|v| !v.is_nan())
+                    .position(Option::is_some)
                     .map(|i| row_numbers[i])
                     .unwrap_or(first_row);
                 let value = stats.min.map(show).unwrap_or_default();
                 problems.push(constant_problem(name, Some((first, value.as_str()))));
             }
-            let series = if ty == ColumnType::Integer {
-                // Integers have at most 15 digits, so the conversion is exact.
-                let build = |chunk: &Vec<f64>| {
-                    Int64Chunked::from_iter_options(
-                        PlSmallStr::from_str(name),
-                        chunk.iter().map(|v| (!v.is_nan()).then_some(*v as i64)),
-                    )
-                };
-                let mut ca = build(&chunks[0]);
-                for chunk in &chunks[1..] {
-                    ca.append_owned(build(chunk))?;
-                }
-                ca.into_series()
-            } else {
-                let build = |chunk: &Vec<f64>| {
-                    Float64Chunked::from_iter_options(
-                        PlSmallStr::from_str(name),
-                        chunk.iter().map(|v| (!v.is_nan()).then_some(*v)),
-                    )
-                };
-                let mut ca = build(&chunks[0]);
-                for chunk in &chunks[1..] {
-                    ca.append_owned(build(chunk))?;
-                }
-                ca.into_series()
-            };
-            drop(chunks);
             frame_cols.push(series.into_column());
         }
         if negative_total > 0 {
