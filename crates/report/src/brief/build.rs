@@ -267,7 +267,7 @@ fn summary_section(ctx: &Ctx<'_>) -> Section {
     );
     if !clear.is_empty() {
         first.push_str(&format!(
-            " With the other indicators held equal, {} {} associated with the outcome: the {} interval of {} excludes no association.",
+            " With the other indicators held equal, {} {} associated with the outcome: the {} interval of {} does not include zero, the value that would mean no association.",
             join_and(&clear),
             if clear.len() == 1 { "is clearly" } else { "are clearly" },
             ctx.level_words(),
