@@ -18,6 +18,12 @@ pub enum ReportError {
         /// What is missing or wrong, in plain words.
         reason: String,
     },
+    /// The engine refused the analysis behind a brief section (its message is for the analyst).
+    #[error(transparent)]
+    Engine(#[from] wardcast_engine::EngineError),
+    /// A contract document could not be converted.
+    #[error(transparent)]
+    Contract(#[from] wardcast_contract::ContractError),
 }
 
 /// The result type of the report crate.

@@ -24,6 +24,8 @@
 //! ```
 
 mod build;
+mod choice;
+pub use choice::{ChoiceCv, model_choice};
 pub mod html;
 pub mod pdf;
 pub mod tables;

@@ -4,10 +4,10 @@
 use std::path::PathBuf;
 use std::process::ExitCode;
 
-use wardcast_report::brief::{Brief, BriefInput, DatasetChecksum, html, pdf, tables};
+use wardcast_report::brief::{Brief, BriefInput, ChoiceCv, DatasetChecksum, html, model_choice, pdf, tables};
 
 use super::ModelArgs;
-use crate::analysis::{ChoiceCv, Fitted, model_choice, today};
+use crate::analysis::{Fitted, today};
 
 /// Flags of `wardcast brief`.
 #[derive(Debug, Clone, clap::Args)]

@@ -12,11 +12,8 @@ use wardcast_contract::dataset::{ColumnMeta, ColumnRole};
 use wardcast_contract::fit::FitDocument;
 use wardcast_contract::spec::{ExclusionSpec, ModelSpec};
 use wardcast_engine::diagnostics::{self, CheckOptions};
-use wardcast_engine::selection::{self, Candidates, CvOptions, SearchOptions};
 use wardcast_engine::{Column, Design, Fit, FitOptions, Table};
-use wardcast_report::brief::{
-    BriefInput, CandidateModel, DatasetChecksum, ModelChoice, NestedTest,
-};
+use wardcast_report::brief::{BriefInput, ChoiceCv, DatasetChecksum, ModelChoice, model_choice};
 
 /// The predictors of the reported model.
 pub const PREDICTORS: [&str; 4] = [
@@ -155,111 +152,18 @@ pub fn documents(table: &Table, spec: &ModelSpec) -> (FitDocument, ChecksDocumen
     (fit_doc, ChecksDocument::from_checks(&checks, spec))
 }
 
-/// The model choice: best subsets, seeded 5-fold CV of the best model of each size from two
-/// to five, and partial F tests of adding each other indicator to the reported model.
-pub fn model_choice(table: &Table, spec: &ModelSpec) -> ModelChoice {
-    let mut full = ModelSpec::new("assault_rate_per_10k", CANDIDATES);
-    full.exclusions = spec.exclusions.clone();
-    let design =
-        Design::build(table, &full.to_engine().expect("a valid spec")).expect("the design builds");
-    let cands = Candidates::from_design(&design).expect("candidates");
-    let search = selection::best_subsets(
-        &cands,
-        &SearchOptions {
-            top: 10,
-            ..SearchOptions::default()
-        },
-    )
-    .expect("the search runs");
-    let is_reported = |m: &selection::SubsetModel| {
-        let mut a = m.labels().to_vec();
-        a.sort();
-        let mut b: Vec<String> = PREDICTORS.iter().map(|s| (*s).to_owned()).collect();
-        b.sort();
-        a == b
-    };
-    // The best model of each size from two to five, and the reported model if it is not one of them.
-    let picked: Vec<&selection::SubsetModel> = search
-        .models()
-        .filter(|m| ((2..=5).contains(&m.size()) && m.rank_in_size() == 1) || is_reported(m))
-        .collect();
+/// The model choice, built by the report crate's own [`model_choice`] (the same code the
+/// command line uses): best subsets of the seven candidates, seeded 5-fold CV with 3 repeats,
+/// and partial F tests of adding each other indicator to the reported model.
+pub fn demo_model_choice(table: &Table, spec: &ModelSpec) -> ModelChoice {
+    let candidates: Vec<String> = CANDIDATES.iter().map(|c| (*c).to_owned()).collect();
+    let cv = ChoiceCv { folds: 5, repeats: 3, seed: 20_261_201 };
+    let choice = model_choice(table, spec, &candidates, &cv).expect("the model choice runs");
     assert!(
-        picked.iter().any(|m| is_reported(m)),
-        "the reported model is among the top ten of its size"
+        choice.candidates.iter().any(|c| c.chosen),
+        "the reported model is among the compared candidates"
     );
-    let terms: Vec<Vec<usize>> = picked.iter().map(|m| m.terms().to_vec()).collect();
-    let seeds = [20_261_201_u64];
-    let cv = selection::cross_validate(
-        &cands,
-        &terms,
-        &CvOptions {
-            folds: 5,
-            repeats: 3,
-            seed: seeds[0],
-            ..CvOptions::default()
-        },
-    )
-    .expect("the CV runs");
-    let candidates = picked
-        .iter()
-        .zip(cv.models())
-        .map(|(m, c)| CandidateModel {
-            predictors: m.labels().to_vec(),
-            adj_r_squared: m.adj_r_squared(),
-            cp: m.cp(),
-            aic: m.aic(),
-            sbc: m.sbc(),
-            press: m.press(),
-            cv_rmse: Some(c.rmse().mean),
-            cv_rmse_sd: Some(c.rmse().sd),
-            chosen: is_reported(m),
-        })
-        .collect();
-    let index = |name: &str| {
-        cands
-            .column_names()
-            .iter()
-            .position(|c| c == name)
-            .expect("a candidate term")
-    };
-    let base: Vec<usize> = PREDICTORS.iter().map(|p| index(p)).collect();
-    let nested_tests = CANDIDATES
-        .iter()
-        .filter(|c| !PREDICTORS.contains(c))
-        .map(|extra| {
-            let mut larger = base.clone();
-            larger.push(index(extra));
-            let t = selection::partial_f_test(&cands, &base, &larger, &Default::default())
-                .expect("the F test runs");
-            NestedTest {
-                smaller: t.smaller().to_vec(),
-                added: t.added().to_vec(),
-                f: t.f(),
-                df_num: t.df_num(),
-                df_den: t.df_larger(),
-                p_value: t.p_value(),
-            }
-        })
-        .collect();
-    ModelChoice {
-        search: format!(
-            "Exact best subsets of {} candidate indicators; the best model of each size from two to five and the reported model are compared.",
-            CANDIDATES.len()
-        ),
-        criteria: vec![
-            "adjusted R²".into(),
-            "Mallows' Cp".into(),
-            "AIC".into(),
-            "SBC".into(),
-            "PRESS".into(),
-            "5-fold cross-validated RMSE (3 repeats)".into(),
-        ],
-        candidates,
-        nested_tests,
-        cv_folds: Some(cv.folds()),
-        cv_seeds: seeds.to_vec(),
-        notes: search.notes().to_vec(),
-    }
+    choice
 }
 
 /// The SHA-256 of the demo CSV, standing in for a stored version's checksum.
@@ -282,7 +186,7 @@ pub fn demo_input() -> BriefInput {
         wardcast_version: "0.1.0-test".into(),
         fit,
         checks: Some(checks),
-        model_choice: Some(model_choice(&table, &spec)),
+        model_choice: Some(demo_model_choice(&table, &spec)),
         allocation: None,
         columns: demo_columns(),
         join: None,
