@@ -36,28 +36,14 @@ fn synthetic(c: &Case) -> Design {
     let n = c.rows;
     let k = c.predictors;
     let shared: Vec<f64> = (0..n).map(|_| rng.random::<f64>() * 10.0).collect();
-    let cols: Vec<Vec<f64>> = (0..k)
-        .map(|_| {
-            shared
-                .iter()
-                .map(|s| 0.4 * s + 0.6 * rng.random::<f64>() * 10.0)
-                .collect()
-        })
-        .collect();
-    let beta: Vec<f64> = (0..k)
-        .map(|j| (j as f64 + 1.0).recip() * if j % 2 == 0 { 1.0 } else { -1.0 })
-        .collect();
+    let cols: Vec<Vec<f64>> =
+        (0..k).map(|_| shared.iter().map(|s| 0.4 * s + 0.6 * rng.random::<f64>() * 10.0).collect()).collect();
+    let beta: Vec<f64> =
+        (0..k).map(|j| (j as f64 + 1.0).recip() * if j % 2 == 0 { 1.0 } else { -1.0 }).collect();
     let y: Vec<f64> = (0..n)
-        .map(|i| {
-            5.0 + cols.iter().zip(&beta).map(|(c, b)| c[i] * b).sum::<f64>()
-                + 2.0 * normal(&mut rng)
-        })
+        .map(|i| 5.0 + cols.iter().zip(&beta).map(|(c, b)| c[i] * b).sum::<f64>() + 2.0 * normal(&mut rng))
         .collect();
-    let weights = c.weighted.then(|| {
-        (0..n)
-            .map(|_| 500.0 + rng.random::<f64>() * 19_500.0)
-            .collect()
-    });
+    let weights = c.weighted.then(|| (0..n).map(|_| 500.0 + rng.random::<f64>() * 19_500.0).collect());
     let names = (1..=k).map(|j| format!("x{j}")).collect();
     let keys = (0..n).map(|i| format!("R{i:06}")).collect();
     Design::from_matrix(Matrix::from_columns(&cols), y, weights, names, keys, true)
@@ -88,14 +74,7 @@ fn mean_cpu_ms<T>(reps: usize, mut f: impl FnMut() -> T) -> Option<f64> {
 /// Runs the fit benchmarks.
 pub fn run(table: &mut Table) {
     let cases = [
-        Case {
-            rows: 3_200,
-            predictors: 12,
-            weighted: false,
-            seed: 320_012,
-            reps: 101,
-            goal: "< 5 ms",
-        },
+        Case { rows: 3_200, predictors: 12, weighted: false, seed: 320_012, reps: 101, goal: "< 5 ms" },
         Case {
             rows: 3_200,
             predictors: 12,
@@ -104,14 +83,7 @@ pub fn run(table: &mut Table) {
             reps: 101,
             goal: "(WLS, no goal)",
         },
-        Case {
-            rows: 85_000,
-            predictors: 30,
-            weighted: false,
-            seed: 8_500_030,
-            reps: 9,
-            goal: "< 150 ms",
-        },
+        Case { rows: 85_000, predictors: 30, weighted: false, seed: 8_500_030, reps: 9, goal: "< 150 ms" },
         Case {
             rows: 85_000,
             predictors: 30,
@@ -124,10 +96,7 @@ pub fn run(table: &mut Table) {
     let opts = FitOptions::default();
     for c in &cases {
         let kind = if c.weighted { "WLS" } else { "OLS" };
-        let label = format!(
-            "fit {kind} {} rows x {} predictors, seed {}",
-            c.rows, c.predictors, c.seed
-        );
+        let label = format!("fit {kind} {} rows x {} predictors, seed {}", c.rows, c.predictors, c.seed);
         let build = median_time(3, || synthetic(c));
         let design = synthetic(c);
         let t = median_time(c.reps, || {
@@ -135,34 +104,18 @@ pub fn run(table: &mut Table) {
             let ci = f.conf_int(0.95).expect("level");
             (f, ci)
         });
-        table.push(
-            format!("{label}: fit + inference (median of {})", c.reps),
-            ms(t),
-            c.goal,
-        );
+        table.push(format!("{label}: fit + inference (median of {})", c.reps), ms(t), c.goal);
         let fit_once = || {
             let f = Fit::new(&design, &opts).expect("fit");
             let ci = f.conf_int(0.95).expect("level");
             (f, ci)
         };
         if let Some(cpu) = mean_cpu_ms(c.reps, fit_once) {
-            table.push(
-                format!("{label}: same, mean CPU time of the thread"),
-                format!("{cpu:.3} ms"),
-                c.goal,
-            );
+            table.push(format!("{label}: same, mean CPU time of the thread"), format!("{cpu:.3} ms"), c.goal);
         }
-        table.push(
-            format!("{label}: generate + build design"),
-            ms(build),
-            "(setup, not timed above)",
-        );
+        table.push(format!("{label}: generate + build design"), ms(build), "(setup, not timed above)");
     }
     if let Some(mib) = peak_rss_mib() {
-        table.push(
-            "fit section: peak resident memory",
-            format!("{mib:.1} MiB"),
-            "(info)",
-        );
+        table.push("fit section: peak resident memory", format!("{mib:.1} MiB"), "(info)");
     }
 }

@@ -54,17 +54,13 @@ fn synthetic(n: usize, p: usize, seed: u64) -> Candidates {
         cols.insert(pos, (format!("real{k}"), z.clone()));
     }
     let sigma = (2.5_f64 * 0.4 / 0.6).sqrt();
-    let y: Vec<f64> = (0..n)
-        .map(|i| 5.0 + (0..6).map(|k| beta[k] * real[k][i]).sum::<f64>() + sigma * g.next())
-        .collect();
+    let y: Vec<f64> =
+        (0..n).map(|i| 5.0 + (0..6).map(|k| beta[k] * real[k][i]).sum::<f64>() + sigma * g.next()).collect();
     let names: Vec<String> = cols.iter().map(|c| c.0.clone()).collect();
     let terms = names
         .iter()
         .enumerate()
-        .map(|(j, l)| CandidateTerm {
-            label: l.clone(),
-            columns: j..j + 1,
-        })
+        .map(|(j, l)| CandidateTerm { label: l.clone(), columns: j..j + 1 })
         .collect();
     let x = Matrix::from_columns(&cols.into_iter().map(|c| c.1).collect::<Vec<_>>());
     let keys = (0..n).map(|i| format!("a{i:05}")).collect();
@@ -79,11 +75,7 @@ fn naive(c: &Candidates, top: usize) -> Vec<Vec<(f64, u64)>> {
     let qr = QrOptions::default();
     for mask in 0u64..(1 << p) {
         let mut cols = vec![vec![1.0; n]];
-        cols.extend(
-            (0..p)
-                .filter(|j| mask >> j & 1 == 1)
-                .map(|j| c.x().column(j).to_vec()),
-        );
+        cols.extend((0..p).filter(|j| mask >> j & 1 == 1).map(|j| c.x().column(j).to_vec()));
         let x = Matrix::from_columns(&cols);
         let f = PivotedQr::factor(&x, &qr);
         let r = f.least_squares(c.y()).residuals;
@@ -128,25 +120,15 @@ fn wall_cpu(wall: Duration, cpu: Option<Duration>) -> String {
 
 fn describe(s: &SubsetSearch) -> String {
     let c = s.counts();
-    format!(
-        "{} of {} subsets computed, {} pruned, {} refits",
-        c.evaluated, c.subsets, c.pruned, c.refits
-    )
+    format!("{} of {} subsets computed, {} pruned, {} refits", c.evaluated, c.subsets, c.pruned, c.refits)
 }
 
 /// Runs the selection benchmarks.
 pub fn run(table: &mut Table) {
     // County-sized: 3,200 × 20, every subset.
     let county = synthetic(3200, 20, 20_240_604);
-    let opts = SearchOptions {
-        method: SearchMethod::Exhaustive,
-        ..SearchOptions::default()
-    };
-    let t = median_time(3, || {
-        best_subsets(&county, &opts)
-            .map(|s| s.counts().evaluated)
-            .unwrap_or(0)
-    });
+    let opts = SearchOptions { method: SearchMethod::Exhaustive, ..SearchOptions::default() };
+    let t = median_time(3, || best_subsets(&county, &opts).map(|s| s.counts().evaluated).unwrap_or(0));
     let (s, wall, cpu) = timed(|| best_subsets(&county, &opts).expect("county search"));
     eprintln!("    county: {}", describe(&s));
     table.push(
@@ -154,20 +136,9 @@ pub fn run(table: &mut Table) {
         format!("{} median; last {}", ms(t), wall_cpu(wall, cpu)),
         "< 1 s",
     );
-    let ll_opts = SearchOptions {
-        method: SearchMethod::LeapsAndBounds,
-        ..SearchOptions::default()
-    };
-    let t_ll = median_time(5, || {
-        best_subsets(&county, &ll_opts)
-            .map(|s| s.counts().evaluated)
-            .unwrap_or(0)
-    });
-    table.push(
-        "select: county, same search by leaps and bounds (for comparison)",
-        ms(t_ll),
-        "-",
-    );
+    let ll_opts = SearchOptions { method: SearchMethod::LeapsAndBounds, ..SearchOptions::default() };
+    let t_ll = median_time(5, || best_subsets(&county, &ll_opts).map(|s| s.counts().evaluated).unwrap_or(0));
+    table.push("select: county, same search by leaps and bounds (for comparison)", ms(t_ll), "-");
 
     // Speed-up on a 14-predictor slice: the naive QR per subset against the search.
     let cols: Vec<usize> = (0..14).collect();
@@ -182,10 +153,7 @@ pub fn run(table: &mut Table) {
     )
     .expect("slice");
     let (nb, t_naive, cpu_naive) = timed(|| naive(&slice, 5));
-    let rank_opts = SearchOptions {
-        statistics: Statistics::RankingOnly,
-        ..opts.clone()
-    };
+    let rank_opts = SearchOptions { statistics: Statistics::RankingOnly, ..opts.clone() };
     let mut fast = None;
     let t_rank = median_time(9, || {
         fast = Some(best_subsets(&slice, &rank_opts).expect("slice search"));
@@ -193,38 +161,19 @@ pub fn run(table: &mut Table) {
     let fast = fast.expect("slice search ran");
     let same = fast.sizes().iter().all(|sb| {
         let want: Vec<u64> = nb[sb.size()].iter().map(|x| x.1).collect();
-        let got: Vec<u64> = sb
-            .models()
-            .iter()
-            .map(|m| m.terms().iter().fold(0u64, |acc, &t| acc | (1 << t)))
-            .collect();
+        let got: Vec<u64> =
+            sb.models().iter().map(|m| m.terms().iter().fold(0u64, |acc, &t| acc | (1 << t))).collect();
         want == got
     });
-    let t_full = median_time(9, || {
-        best_subsets(&slice, &opts)
-            .map(|s| s.counts().refits)
-            .unwrap_or(0)
-    });
+    let t_full = median_time(9, || best_subsets(&slice, &opts).map(|s| s.counts().refits).unwrap_or(0));
     table.push(
         "select: naive pivoted QR per subset, 14 predictors (16,384 fits)",
         wall_cpu(t_naive, cpu_naive),
         "-",
     );
-    table.push(
-        "select: search on the same slice, ranking only (QR-verified)",
-        ms(t_rank),
-        "-",
-    );
-    table.push(
-        "select: search on the same slice, with data refits + PRESS",
-        ms(t_full),
-        "-",
-    );
-    let lists = if same {
-        "same top-5 lists"
-    } else {
-        "LISTS DIFFER"
-    };
+    table.push("select: search on the same slice, ranking only (QR-verified)", ms(t_rank), "-");
+    table.push("select: search on the same slice, with data refits + PRESS", ms(t_full), "-");
+    let lists = if same { "same top-5 lists" } else { "LISTS DIFFER" };
     table.push(
         format!("select: speed-up naive / ranking search ({lists})"),
         format!("{:.0}x", t_naive.as_secs_f64() / t_rank.as_secs_f64()),
@@ -237,30 +186,12 @@ pub fn run(table: &mut Table) {
     );
 
     // CV: 10-fold x 5 repeats on the county table for the 10 models with the smallest AIC.
-    let mut ranked: Vec<_> = s
-        .models()
-        .filter_map(|m| m.aic().map(|a| (a, m.terms().to_vec())))
-        .collect();
+    let mut ranked: Vec<_> = s.models().filter_map(|m| m.aic().map(|a| (a, m.terms().to_vec()))).collect();
     ranked.sort_by(|a, b| a.0.total_cmp(&b.0));
     let models: Vec<Vec<usize>> = ranked.into_iter().take(10).map(|x| x.1).collect();
-    let cvo = CvOptions {
-        folds: 10,
-        repeats: 5,
-        seed: 1,
-        ..CvOptions::default()
-    };
-    let t = median_time(3, || {
-        cross_validate(&county, &models, &cvo)
-            .expect("cv")
-            .models()
-            .len()
-    });
-    let (_, wall, cpu) = timed(|| {
-        cross_validate(&county, &models, &cvo)
-            .expect("cv")
-            .models()
-            .len()
-    });
+    let cvo = CvOptions { folds: 10, repeats: 5, seed: 1, ..CvOptions::default() };
+    let t = median_time(3, || cross_validate(&county, &models, &cvo).expect("cv").models().len());
+    let (_, wall, cpu) = timed(|| cross_validate(&county, &models, &cvo).expect("cv").models().len());
     table.push(
         "select: CV 10-fold x 5 repeats, county table, top 10 models",
         format!("{} median; last {}", ms(t), wall_cpu(wall, cpu)),
@@ -271,10 +202,7 @@ pub fn run(table: &mut Table) {
     let before = peak_rss_mib().unwrap_or(f64::NAN);
     let tract = synthetic(85_000, 30, 20_240_605);
     let cancel = AtomicBool::new(false);
-    let opts = SearchOptions {
-        cancel: Some(&cancel),
-        ..SearchOptions::default()
-    };
+    let opts = SearchOptions { cancel: Some(&cancel), ..SearchOptions::default() };
     let (s, wall, cpu) = timed(|| best_subsets(&tract, &opts).expect("tract search"));
     eprintln!("    tract: {}", describe(&s));
     table.push(
@@ -289,10 +217,7 @@ pub fn run(table: &mut Table) {
     );
     table.push(
         "select: peak RSS after the tract case (MiB)",
-        format!(
-            "{:.1} (before: {before:.1})",
-            peak_rss_mib().unwrap_or(f64::NAN)
-        ),
+        format!("{:.1} (before: {before:.1})", peak_rss_mib().unwrap_or(f64::NAN)),
         "< 200 MB",
     );
 }

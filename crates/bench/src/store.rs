@@ -112,24 +112,43 @@ fn big_import(table: &mut Table) -> Result<(), String> {
 fn small_table(dir: &Path) -> Result<(Store, ModelSpec), String> {
     let mut rng = ChaCha8Rng::seed_from_u64(64);
     let mut csv = String::from("district_code,district_type,residents,rate_per_10k");
-    let indicators = ["unemployment_pct", "youth_share_pct", "vacancy_pct", "outlets_per_1k", "seats_per_100", "outages_per_km", "income"];
+    let indicators = [
+        "unemployment_pct",
+        "youth_share_pct",
+        "vacancy_pct",
+        "outlets_per_1k",
+        "seats_per_100",
+        "outages_per_km",
+        "income",
+    ];
     for name in indicators {
         let _ = write!(csv, ",{name}");
     }
     csv.push('\n');
     for i in 0..64 {
         let t = TYPES[i % 3];
-        let _ = write!(csv, "LK-{:02},{t},{},{:.1}", i + 1, rng.random_range(3_000..23_000u32), rng.random_range(8.0..100.0f64));
+        let _ = write!(
+            csv,
+            "LK-{:02},{t},{},{:.1}",
+            i + 1,
+            rng.random_range(3_000..23_000u32),
+            rng.random_range(8.0..100.0f64)
+        );
         for _ in indicators {
             let _ = write!(csv, ",{:.2}", rng.random_range(0.5..60.0f64));
         }
         csv.push('\n');
     }
-    let staged = wardcast_store::import_bytes(csv.as_bytes(), "districts.csv", &ImportOptions::default()).map_err(|e| e.to_string())?;
+    let staged = wardcast_store::import_bytes(csv.as_bytes(), "districts.csv", &ImportOptions::default())
+        .map_err(|e| e.to_string())?;
     let (mut store, _) = Store::open(dir).map_err(|e| e.to_string())?;
     store.save_import("districts", &staged).map_err(|e| e.to_string())?;
     let mut spec = ModelSpec::new("rate_per_10k", &indicators);
-    spec.predictors.push(Predictor { column: "district_type".into(), transform: None, reference_level: None });
+    spec.predictors.push(Predictor {
+        column: "district_type".into(),
+        transform: None,
+        reference_level: None,
+    });
     Ok((store, spec))
 }
 

@@ -158,11 +158,7 @@ pub struct RangeDoc {
 
 impl From<Percentiles> for RangeDoc {
     fn from(p: Percentiles) -> Self {
-        Self {
-            p2_5: p.p2_5,
-            p50: p.p50,
-            p97_5: p.p97_5,
-        }
+        Self { p2_5: p.p2_5, p50: p.p50, p97_5: p.p97_5 }
     }
 }
 
@@ -245,11 +241,9 @@ impl AllocationDocument {
     pub fn from_allocation(a: &Allocation) -> Self {
         let s = a.settings();
         let blend_weights = match s.basis {
-            Basis::Blend(w) => Some(BlendWeightsDoc {
-                population: w.population,
-                observed: w.observed,
-                expected: w.expected,
-            }),
+            Basis::Blend(w) => {
+                Some(BlendWeightsDoc { population: w.population, observed: w.observed, expected: w.expected })
+            }
             _ => None,
         };
         let settings = AllocationSettingsDoc {
@@ -364,10 +358,7 @@ impl AllocationDocument {
             unmatched_budgets: a
                 .unmatched_budgets()
                 .iter()
-                .map(|b| UnmatchedBudgetDoc {
-                    key: b.key.clone(),
-                    amount: b.amount,
-                })
+                .map(|b| UnmatchedBudgetDoc { key: b.key.clone(), amount: b.amount })
                 .collect(),
             sensitivity,
             uncertainty,
@@ -382,8 +373,7 @@ impl AllocationDocument {
 mod tests {
     use super::*;
     use wardcast_engine::allocation::{
-        AllocationOptions, BlendWeights, BudgetRow, DistrictInput, ExpectedModel,
-        SimulationOptions, allocate,
+        AllocationOptions, BlendWeights, BudgetRow, DistrictInput, ExpectedModel, SimulationOptions, allocate,
     };
     use wardcast_engine::{Design, Fit, FitOptions, Matrix};
 
@@ -392,8 +382,7 @@ mod tests {
         let x = Matrix::from_columns(&[vec![1.0, 2.0, 3.0, 4.0, 5.0]]);
         let y = vec![12.0, 15.5, 17.0, 21.5, 22.0];
         let keys: Vec<String> = ["A", "B", "C", "D", "E"].map(String::from).to_vec();
-        let d =
-            Design::from_matrix(x, y, None, vec!["x".into()], keys.clone(), true).expect("design");
+        let d = Design::from_matrix(x, y, None, vec!["x".into()], keys.clone(), true).expect("design");
         let fit = Fit::new(&d, &FitOptions::default()).expect("fit");
         let districts: Vec<DistrictInput> = keys
             .iter()
@@ -404,58 +393,27 @@ mod tests {
                 observed: 3.0 + i as f64,
             })
             .collect();
-        let budgets = vec![
-            BudgetRow {
-                key: "A".into(),
-                amount: 100,
-            },
-            BudgetRow {
-                key: "Q".into(),
-                amount: 5,
-            },
-        ];
-        let model = ExpectedModel {
-            fit: &fit,
-            rate_unit: 1000.0,
-            extra_rows: vec![],
-        };
+        let budgets =
+            vec![BudgetRow { key: "A".into(), amount: 100 }, BudgetRow { key: "Q".into(), amount: 5 }];
+        let model = ExpectedModel { fit: &fit, rate_unit: 1000.0, extra_rows: vec![] };
         let opts = AllocationOptions {
             total: 1000,
-            basis: Basis::Blend(BlendWeights {
-                population: 0.5,
-                observed: 0.25,
-                expected: 0.25,
-            }),
+            basis: Basis::Blend(BlendWeights { population: 0.5, observed: 0.25, expected: 0.25 }),
             floor: Some(50),
             cap: Some(400),
-            simulation: SimulationOptions {
-                draws: 200,
-                seed: 3,
-            },
+            simulation: SimulationOptions { draws: 200, seed: 3 },
         };
         let a = allocate(&districts, &budgets, &model, &opts).expect("allocation");
         let doc = AllocationDocument::from_allocation(&a);
         assert_eq!(doc.districts.iter().map(|r| r.proposed).sum::<u64>(), 1000);
         assert_eq!(doc.districts[0].current_budget, Some(100));
-        assert_eq!(
-            doc.districts[1].budget_note.as_deref(),
-            Some("no current budget")
-        );
-        assert_eq!(
-            doc.unmatched_budgets,
-            [UnmatchedBudgetDoc {
-                key: "Q".into(),
-                amount: 5
-            }]
-        );
+        assert_eq!(doc.districts[1].budget_note.as_deref(), Some("no current budget"));
+        assert_eq!(doc.unmatched_budgets, [UnmatchedBudgetDoc { key: "Q".into(), amount: 5 }]);
         assert_eq!(doc.settings.blend_weights.map(|w| w.expected), Some(0.25));
         assert_eq!((doc.settings.seed, doc.settings.draws), (3, 200));
         assert_eq!(doc.cautions.len(), 5);
         let text = serde_json::to_string(&doc).expect("serialise");
-        assert!(
-            !text.contains("\"rank"),
-            "the document has no ranking field"
-        );
+        assert!(!text.contains("\"rank"), "the document has no ranking field");
         let back: AllocationDocument = serde_json::from_str(&text).expect("parse");
         // serde_json without its exact-float feature may change the last digit of a parsed
         // float, so the round trip is compared on the fields that are not computed floats.
@@ -463,10 +421,7 @@ mod tests {
         assert_eq!(back.unmatched_budgets, doc.unmatched_budgets);
         assert_eq!(back.cautions, doc.cautions);
         let amounts = |d: &AllocationDocument| -> Vec<(String, u64, Option<u64>)> {
-            d.districts
-                .iter()
-                .map(|r| (r.key.clone(), r.proposed, r.current_budget))
-                .collect()
+            d.districts.iter().map(|r| (r.key.clone(), r.proposed, r.current_budget)).collect()
         };
         assert_eq!(amounts(&back), amounts(&doc));
     }

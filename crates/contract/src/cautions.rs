@@ -48,7 +48,11 @@ const CAUTIONS: [(&str, &str, &str); 5] = [
 pub fn standing_cautions() -> Vec<Caution> {
     CAUTIONS
         .iter()
-        .map(|(id, heading, text)| Caution { id: (*id).into(), heading: (*heading).into(), text: (*text).into() })
+        .map(|(id, heading, text)| Caution {
+            id: (*id).into(),
+            heading: (*heading).into(),
+            text: (*text).into(),
+        })
         .collect()
 }
 
@@ -61,7 +65,13 @@ mod tests {
         let ids: Vec<String> = standing_cautions().into_iter().map(|c| c.id).collect();
         assert_eq!(
             ids,
-            ["association", "areas-not-individuals", "small-populations", "enforcement-feedback", "local-review"]
+            [
+                "association",
+                "areas-not-individuals",
+                "small-populations",
+                "enforcement-feedback",
+                "local-review"
+            ]
         );
     }
 }

@@ -9,8 +9,8 @@
 use serde::{Deserialize, Serialize};
 use wardcast_engine::diagnostics::{
     AddedVariable, BoxTidwell, BreuschPagan, BrownForsythe, CheckOutcome, Checks, ComponentResidual,
-    ConditionDiagnostics, Correlation, Influence, Named, PlotPoint, PowerProfile, QqPlot, Refit, RefitSide, Reset,
-    ResidualTable, RobustErrors, RowsGuard, ShapiroWilk, TransformSearch, Verdict, Vif,
+    ConditionDiagnostics, Correlation, Influence, Named, PlotPoint, PowerProfile, QqPlot, Refit, RefitSide,
+    Reset, ResidualTable, RobustErrors, RowsGuard, ShapiroWilk, TransformSearch, Verdict, Vif,
 };
 
 use crate::SCHEMA_VERSION;
@@ -53,7 +53,10 @@ pub struct NamedOutcome<T> {
 }
 
 fn named<S, T>(items: &[Named<S>], f: impl Fn(&S) -> T) -> Vec<NamedOutcome<T>> {
-    items.iter().map(|n| NamedOutcome { name: n.name().to_owned(), check: Outcome::map(n.outcome(), &f) }).collect()
+    items
+        .iter()
+        .map(|n| NamedOutcome { name: n.name().to_owned(), check: Outcome::map(n.outcome(), &f) })
+        .collect()
 }
 
 /// A verdict in plain language.
@@ -221,7 +224,8 @@ pub struct BrownForsytheDoc {
 
 fn brown_forsythe_doc(b: &BrownForsythe) -> BrownForsytheDoc {
     BrownForsytheDoc {
-        split_rule: "rows with fitted value at or below the median fitted value form the lower group".to_owned(),
+        split_rule: "rows with fitted value at or below the median fitted value form the lower group"
+            .to_owned(),
         median_fitted: b.median_fitted(),
         lower_n: b.lower_n(),
         upper_n: b.upper_n(),
@@ -506,7 +510,11 @@ fn side_doc(s: &RefitSide) -> RefitSideDoc {
     RefitSideDoc {
         rows_used: s.nobs(),
         r_squared: s.r_squared(),
-        verdicts: s.verdicts().iter().map(|(c, v)| NamedVerdict { check: c.clone(), verdict: v.into() }).collect(),
+        verdicts: s
+            .verdicts()
+            .iter()
+            .map(|(c, v)| NamedVerdict { check: c.clone(), verdict: v.into() })
+            .collect(),
     }
 }
 
@@ -908,9 +916,9 @@ impl ChecksDocument {
     /// Builds the document from an engine report and the spec of the checked model.
     pub fn from_checks(checks: &Checks, spec: &ModelSpec) -> Self {
         let vif = match (checks.vif(), checks.vif_verdict()) {
-            (CheckOutcome::Ok(v), CheckOutcome::Ok(verdict)) => {
-                Outcome::Ok { result: VifDoc { entries: v.iter().map(vif_entry).collect(), verdict: verdict.into() } }
-            }
+            (CheckOutcome::Ok(v), CheckOutcome::Ok(verdict)) => Outcome::Ok {
+                result: VifDoc { entries: v.iter().map(vif_entry).collect(), verdict: verdict.into() },
+            },
             (CheckOutcome::Unavailable(r), _) | (_, CheckOutcome::Unavailable(r)) => {
                 Outcome::Unavailable { reason: r.clone() }
             }
@@ -939,7 +947,9 @@ impl ChecksDocument {
                 breusch_pagan_fitted: Outcome::map(checks.breusch_pagan_fitted(), breusch_pagan_doc),
             },
             linearity: LinearityDoc {
-                residuals_vs_fitted: Outcome::map(checks.residuals_vs_fitted(), |p| SeriesDoc { points: points(p) }),
+                residuals_vs_fitted: Outcome::map(checks.residuals_vs_fitted(), |p| SeriesDoc {
+                    points: points(p),
+                }),
                 residuals_vs_predictors: checks
                     .residuals_vs_predictors()
                     .iter()
@@ -987,11 +997,20 @@ mod tests {
         let x1: Vec<f64> = (0..n).map(|i| 1.0 + f64::from(i)).collect();
         let x2: Vec<f64> = (0..n).map(|i| f64::from((i * 5) % 7)).collect();
         let y: Vec<f64> = (0..n)
-            .map(|i| 3.0 + 2.0 * x1[i as usize].ln() + 0.4 * x2[i as usize] + 0.3 * (f64::from(i) * 1.3).sin())
+            .map(|i| {
+                3.0 + 2.0 * x1[i as usize].ln() + 0.4 * x2[i as usize] + 0.3 * (f64::from(i) * 1.3).sin()
+            })
             .collect();
         let keys = (0..n).map(|i| format!("D{i:02}")).collect();
-        let d = Design::from_matrix(Matrix::from_columns(&[x1, x2]), y, None, vec!["a".into(), "b".into()], keys, true)
-            .expect("design");
+        let d = Design::from_matrix(
+            Matrix::from_columns(&[x1, x2]),
+            y,
+            None,
+            vec!["a".into(), "b".into()],
+            keys,
+            true,
+        )
+        .expect("design");
         Fit::new(&d, &FitOptions::default()).expect("fit")
     }
 

@@ -190,7 +190,8 @@ impl FitDocument {
             })
             .collect();
         let cov = fit.covariance();
-        let covariance = (0..cov.nrows()).map(|i| (0..cov.ncols()).map(|j| cov.get(i, j)).collect()).collect();
+        let covariance =
+            (0..cov.nrows()).map(|i| (0..cov.ncols()).map(|j| cov.get(i, j)).collect()).collect();
         let rows = design
             .keys()
             .iter()

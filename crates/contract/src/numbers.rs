@@ -121,12 +121,7 @@ mod tests {
 
     #[test]
     fn round_trips_every_kind() {
-        let xs = vec![
-            Number::Finite(1.5),
-            Number::PosInfinity,
-            Number::NegInfinity,
-            Number::Undefined,
-        ];
+        let xs = vec![Number::Finite(1.5), Number::PosInfinity, Number::NegInfinity, Number::Undefined];
         let text = serde_json::to_string(&xs).unwrap();
         assert_eq!(text, r#"[1.5,"Infinity","-Infinity",null]"#);
         let back: Vec<Number> = serde_json::from_str(&text).unwrap();

@@ -7,8 +7,8 @@
 
 use serde::{Deserialize, Serialize};
 use wardcast_engine::selection::{
-    CpReference, Criterion, CvModel, CvResult, DropOneTable, PartialFTest, Recommendation,
-    SearchMethod, SizeBest, Spread, SubsetModel, SubsetSearch,
+    CpReference, Criterion, CvModel, CvResult, DropOneTable, PartialFTest, Recommendation, SearchMethod,
+    SizeBest, Spread, SubsetModel, SubsetSearch,
 };
 
 use crate::SCHEMA_VERSION;
@@ -139,19 +139,12 @@ impl SizeDoc {
     fn new(s: &SizeBest, weight_sum: f64) -> Self {
         SizeDoc {
             size: s.size(),
-            models: s
-                .models()
-                .iter()
-                .map(|m| ModelDoc::new(m, weight_sum))
-                .collect(),
+            models: s.models().iter().map(|m| ModelDoc::new(m, weight_sum)).collect(),
             aliased: s.aliased(),
             aliased_on_refit: s
                 .aliased_on_refit()
                 .iter()
-                .map(|a| AliasedDoc {
-                    terms: a.labels().to_vec(),
-                    message: a.message().to_owned(),
-                })
+                .map(|a| AliasedDoc { terms: a.labels().to_vec(), message: a.message().to_owned() })
                 .collect(),
             no_residual_df: s.no_residual_df(),
         }
@@ -173,12 +166,7 @@ pub struct SpreadDoc {
 
 impl From<Spread> for SpreadDoc {
     fn from(s: Spread) -> Self {
-        SpreadDoc {
-            mean: s.mean,
-            sd: s.sd,
-            min: s.min,
-            max: s.max,
-        }
+        SpreadDoc { mean: s.mean, sd: s.sd, min: s.min, max: s.max }
     }
 }
 
@@ -271,10 +259,7 @@ impl CvDoc {
                 for (key, &f) in keys.iter().zip(a.fold_of_row()) {
                     test_keys[f].push(key.clone());
                 }
-                FoldsDoc {
-                    repeat: a.repeat() + 1,
-                    test_keys,
-                }
+                FoldsDoc { repeat: a.repeat() + 1, test_keys }
             })
             .collect();
         CvDoc {
@@ -500,12 +485,7 @@ pub struct SelectionDocument {
 
 impl SelectionDocument {
     /// Builds the document from a search, the spec it ran on and the row keys of its data.
-    pub fn new(
-        spec: &ModelSpec,
-        search: &SubsetSearch,
-        keys: &[String],
-        parts: SelectionParts<'_>,
-    ) -> Self {
+    pub fn new(spec: &ModelSpec, search: &SubsetSearch, keys: &[String], parts: SelectionParts<'_>) -> Self {
         let c = search.counts();
         SelectionDocument {
             schema_version: SCHEMA_VERSION.into(),
@@ -528,11 +508,7 @@ impl SelectionDocument {
                 refits: c.refits,
             },
             cp_reference: search.cp_reference().into(),
-            sizes: search
-                .sizes()
-                .iter()
-                .map(|s| SizeDoc::new(s, search.weight_sum()))
-                .collect(),
+            sizes: search.sizes().iter().map(|s| SizeDoc::new(s, search.weight_sum())).collect(),
             cross_validation: parts.cv.map(|cv| CvDoc::new(cv, keys)),
             recommendation: parts.recommendation.map(RecommendationDoc::from),
             comparisons: parts.comparisons.iter().map(PartialFDoc::from).collect(),
@@ -547,8 +523,7 @@ impl SelectionDocument {
 mod tests {
     use super::*;
     use wardcast_engine::selection::{
-        CandidateTerm, Candidates, CvOptions, SearchOptions, best_subsets, cross_validate,
-        recommend,
+        CandidateTerm, Candidates, CvOptions, SearchOptions, best_subsets, cross_validate, recommend,
     };
 
     #[test]
@@ -558,9 +533,7 @@ mod tests {
         let x0: Vec<f64> = (0..n).map(|i| ((i * 37) % 11) as f64).collect();
         let mut x1 = vec![0.0; n];
         x1[3] = 1.0;
-        let y: Vec<f64> = (0..n)
-            .map(|i| 2.0 + 0.5 * x0[i] + ((i * 7) % 5) as f64 * 0.1)
-            .collect();
+        let y: Vec<f64> = (0..n).map(|i| 2.0 + 0.5 * x0[i] + ((i * 7) % 5) as f64 * 0.1).collect();
         let keys: Vec<String> = (0..n).map(|i| format!("w{i}")).collect();
         let cands = Candidates::new(
             wardcast_engine::Matrix::from_columns(&[x0, x1]),
@@ -568,41 +541,24 @@ mod tests {
             None,
             true,
             vec![
-                CandidateTerm {
-                    label: "x0".into(),
-                    columns: 0..1,
-                },
-                CandidateTerm {
-                    label: "x1".into(),
-                    columns: 1..2,
-                },
+                CandidateTerm { label: "x0".into(), columns: 0..1 },
+                CandidateTerm { label: "x1".into(), columns: 1..2 },
             ],
             vec!["x0".into(), "x1".into()],
             keys.clone(),
         )
         .unwrap();
         let search = best_subsets(&cands, &SearchOptions::default()).unwrap();
-        let cv = cross_validate(
-            &cands,
-            &[vec![0]],
-            &CvOptions {
-                folds: 4,
-                repeats: 2,
-                ..CvOptions::default()
-            },
-        )
-        .unwrap();
+        let cv =
+            cross_validate(&cands, &[vec![0]], &CvOptions { folds: 4, repeats: 2, ..CvOptions::default() })
+                .unwrap();
         let rec = recommend(&search, Some(&cv));
         let spec = ModelSpec::new("y", ["x0", "x1"]);
         let doc = SelectionDocument::new(
             &spec,
             &search,
             &keys,
-            SelectionParts {
-                cv: Some(&cv),
-                recommendation: Some(&rec),
-                ..SelectionParts::default()
-            },
+            SelectionParts { cv: Some(&cv), recommendation: Some(&rec), ..SelectionParts::default() },
         );
         let json = serde_json::to_value(&doc).unwrap();
         assert_eq!(json["kind"], "selection");
@@ -610,13 +566,7 @@ mod tests {
         let full = &json["sizes"][2]["models"][0];
         assert!(full["press"].is_null(), "{full}");
         assert!(full["press_note"].as_str().unwrap().contains("leverage 1"));
-        assert_eq!(
-            json["cross_validation"]["folds_used"]
-                .as_array()
-                .unwrap()
-                .len(),
-            2
-        );
+        assert_eq!(json["cross_validation"]["folds_used"].as_array().unwrap().len(), 2);
         let held: usize = json["cross_validation"]["folds_used"][0]["test_keys"]
             .as_array()
             .unwrap()
@@ -624,13 +574,7 @@ mod tests {
             .map(|f| f.as_array().unwrap().len())
             .sum();
         assert_eq!(held, n, "every key is held out once per repeat");
-        assert!(
-            json["notes"]
-                .as_array()
-                .unwrap()
-                .iter()
-                .any(|v| v.as_str().unwrap().contains("optimistic"))
-        );
+        assert!(json["notes"].as_array().unwrap().iter().any(|v| v.as_str().unwrap().contains("optimistic")));
         let back: SelectionDocument = serde_json::from_value(json).unwrap();
         assert_eq!(back, doc);
     }

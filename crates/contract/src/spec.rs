@@ -195,11 +195,7 @@ impl ModelSpec {
                 reason: format!("the confidence level must lie strictly between 0 and 1, got {}", self.level),
             });
         }
-        let transforms = self
-            .predictors
-            .iter()
-            .filter_map(|p| p.transform)
-            .chain(self.response_transform);
+        let transforms = self.predictors.iter().filter_map(|p| p.transform).chain(self.response_transform);
         for t in transforms {
             if let TransformSpec::Power { lambda } = t
                 && !lambda.is_finite()

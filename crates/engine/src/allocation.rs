@@ -142,10 +142,7 @@ pub struct SimulationOptions {
 
 impl Default for SimulationOptions {
     fn default() -> Self {
-        Self {
-            draws: DEFAULT_DRAWS,
-            seed: DEFAULT_SEED,
-        }
+        Self { draws: DEFAULT_DRAWS, seed: DEFAULT_SEED }
     }
 }
 
@@ -404,24 +401,16 @@ impl Allocation {
 /// Checks blend weights: each in [0, 1] and summing to 1.
 pub fn validate_basis(basis: &Basis) -> Result<()> {
     if let Basis::Blend(w) = basis {
-        for (name, v) in [
-            ("population", w.population),
-            ("observed", w.observed),
-            ("expected", w.expected),
-        ] {
+        for (name, v) in [("population", w.population), ("observed", w.observed), ("expected", w.expected)] {
             if !(v.is_finite() && (0.0..=1.0).contains(&v)) {
                 return Err(EngineError::BadBlendWeights {
-                    reason: format!(
-                        "the {name} weight is {v}; each weight must lie between 0 and 1"
-                    ),
+                    reason: format!("the {name} weight is {v}; each weight must lie between 0 and 1"),
                 });
             }
         }
         let sum = w.population + w.observed + w.expected;
         if (sum - 1.0).abs() > BLEND_SUM_TOLERANCE {
-            return Err(EngineError::BadBlendWeights {
-                reason: format!("the weights sum to {sum}, not 1"),
-            });
+            return Err(EngineError::BadBlendWeights { reason: format!("the weights sum to {sum}, not 1") });
         }
     }
     Ok(())
@@ -448,12 +437,7 @@ pub fn check_bounds(n: usize, total: u64, floor: Option<u64>, cap: Option<u64>) 
     if let Some(c) = cap
         && nn * u128::from(c) < u128::from(total)
     {
-        return Err(EngineError::CapsBelowTotal {
-            cap: c,
-            districts: n,
-            allowed: nn * u128::from(c),
-            total,
-        });
+        return Err(EngineError::CapsBelowTotal { cap: c, districts: n, allowed: nn * u128::from(c), total });
     }
     Ok(())
 }
@@ -462,9 +446,7 @@ pub fn check_bounds(n: usize, total: u64, floor: Option<u64>, cap: Option<u64>) 
 fn shares_of(values: &[f64], basis: &str) -> Result<Vec<f64>> {
     let sum: f64 = values.iter().sum();
     if !(sum > 0.0 && sum.is_finite()) {
-        return Err(EngineError::ZeroBasis {
-            basis: basis.to_owned(),
-        });
+        return Err(EngineError::ZeroBasis { basis: basis.to_owned() });
     }
     Ok(values.iter().map(|v| v / sum).collect())
 }
@@ -472,9 +454,7 @@ fn shares_of(values: &[f64], basis: &str) -> Result<Vec<f64>> {
 /// Combines the three share vectors with the basis weights.
 fn combine(basis: &Basis, pop: &[f64], obs: &[f64], exp: &[f64]) -> Vec<f64> {
     let [a, b, c] = basis.weights();
-    (0..pop.len())
-        .map(|i| a * pop[i] + b * obs[i] + c * exp[i])
-        .collect()
+    (0..pop.len()).map(|i| a * pop[i] + b * obs[i] + c * exp[i]).collect()
 }
 
 /// Splits `total` in proportion to `shares` with every amount in `[floors[i], caps[i]]`, by
@@ -488,12 +468,7 @@ fn combine(basis: &Basis, pop: &[f64], obs: &[f64], exp: &[f64]) -> Vec<f64> {
 /// so a district above its cap stays above it (and symmetrically for floors). When the free
 /// districts' shares are all zero, what is left is split equally among them. The caller checks
 /// feasibility first ([`check_bounds`]). Returns the amounts and each district's bound status.
-pub fn water_fill(
-    shares: &[f64],
-    total: f64,
-    floors: &[f64],
-    caps: &[f64],
-) -> (Vec<f64>, Vec<BoundStatus>) {
+pub fn water_fill(shares: &[f64], total: f64, floors: &[f64], caps: &[f64]) -> (Vec<f64>, Vec<BoundStatus>) {
     let n = shares.len();
     let mut amount = vec![0.0; n];
     let mut status = vec![BoundStatus::Free; n];
@@ -503,18 +478,11 @@ pub fn water_fill(
         if free.is_empty() {
             break;
         }
-        let fixed: f64 = (0..n)
-            .filter(|&i| status[i] != BoundStatus::Free)
-            .map(|i| amount[i])
-            .sum();
+        let fixed: f64 = (0..n).filter(|&i| status[i] != BoundStatus::Free).map(|i| amount[i]).sum();
         let left = total - fixed;
         let weight: f64 = free.iter().map(|&i| shares[i]).sum();
         for &i in &free {
-            amount[i] = if weight > 0.0 {
-                left * shares[i] / weight
-            } else {
-                left / free.len() as f64
-            };
+            amount[i] = if weight > 0.0 { left * shares[i] / weight } else { left / free.len() as f64 };
         }
         let over: f64 = free.iter().map(|&i| (amount[i] - caps[i]).max(0.0)).sum();
         let under: f64 = free.iter().map(|&i| (floors[i] - amount[i]).max(0.0)).sum();
@@ -549,11 +517,7 @@ pub fn largest_remainder(amounts: &[f64], total: u64, floors: &[u64], caps: &[u6
     let mut whole: Vec<u64> = (0..n)
         .map(|i| {
             let a = amounts[i].max(0.0).floor();
-            let a = if a >= u64::MAX as f64 {
-                u64::MAX
-            } else {
-                a as u64
-            };
+            let a = if a >= u64::MAX as f64 { u64::MAX } else { a as u64 };
             a.clamp(floors[i], caps[i])
         })
         .collect();
@@ -712,10 +676,7 @@ struct Normal {
 
 impl Normal {
     fn new(seed: u64) -> Self {
-        Self {
-            rng: ChaCha8Rng::seed_from_u64(seed),
-            spare: None,
-        }
+        Self { rng: ChaCha8Rng::seed_from_u64(seed), spare: None }
     }
     fn uniform(&mut self) -> f64 {
         // In (0, 1): the midpoint of one of 2^53 equal cells.
@@ -746,11 +707,7 @@ pub fn percentiles(values: &[f64]) -> Percentiles {
         let hi = (lo + 1).min(v.len() - 1);
         v[lo] + (h - lo as f64) * (v[hi] - v[lo])
     };
-    Percentiles {
-        p2_5: q(0.025),
-        p50: q(0.5),
-        p97_5: q(0.975),
-    }
+    Percentiles { p2_5: q(0.025), p50: q(0.5), p97_5: q(0.975) }
 }
 
 /// How the linear predictor maps to a rate.
@@ -775,11 +732,7 @@ impl Scale {
             }
             Scale::Log { smearing } => {
                 let r = eta.exp() * smearing;
-                if r.is_finite() {
-                    (r, false)
-                } else {
-                    (f64::MAX, true)
-                }
+                if r.is_finite() { (r, false) } else { (f64::MAX, true) }
             }
         }
     }
@@ -804,10 +757,7 @@ fn prepare_districts(districts: &[DistrictInput]) -> Result<Vec<DistrictInput>> 
         if !(d.observed.is_finite() && d.observed >= 0.0) {
             return Err(EngineError::BadAllocationInput {
                 key: d.key.clone(),
-                reason: format!(
-                    "observed incidents must be zero or more, not {}",
-                    d.observed
-                ),
+                reason: format!("observed incidents must be zero or more, not {}", d.observed),
             });
         }
     }
@@ -823,22 +773,11 @@ fn model_rows(
 ) -> Result<Vec<(Vec<f64>, ExpectedSource)>> {
     let design = model.fit.design();
     let p = model.fit.nparams();
-    let fitted: HashMap<&str, usize> = design
-        .keys()
-        .iter()
-        .enumerate()
-        .map(|(i, k)| (k.as_str(), i))
-        .collect();
-    let extra: HashMap<&str, &Vec<f64>> = model
-        .extra_rows
-        .iter()
-        .map(|(k, r)| (k.as_str(), r))
-        .collect();
-    let dropped: HashMap<&str, &str> = design
-        .dropped()
-        .iter()
-        .map(|d| (d.key.as_str(), d.reason.as_str()))
-        .collect();
+    let fitted: HashMap<&str, usize> =
+        design.keys().iter().enumerate().map(|(i, k)| (k.as_str(), i)).collect();
+    let extra: HashMap<&str, &Vec<f64>> = model.extra_rows.iter().map(|(k, r)| (k.as_str(), r)).collect();
+    let dropped: HashMap<&str, &str> =
+        design.dropped().iter().map(|d| (d.key.as_str(), d.reason.as_str())).collect();
     let mut out = Vec::with_capacity(districts.len());
     for d in districts {
         let key = d.key.as_str();
@@ -864,10 +803,7 @@ fn model_rows(
                 Some(reason) => format!("it was left out of the fit ({reason})"),
                 None => "it is not in the model's data".to_owned(),
             };
-            return Err(EngineError::NoExpected {
-                key: key.to_owned(),
-                why,
-            });
+            return Err(EngineError::NoExpected { key: key.to_owned(), why });
         };
         out.push(row);
     }
@@ -915,19 +851,13 @@ pub fn allocate(
     if !(MIN_DRAWS..=MAX_DRAWS).contains(&sim.draws) {
         return Err(EngineError::BadSimulationOption {
             option: "draws".to_owned(),
-            reason: format!(
-                "{} draws were asked for; use between {MIN_DRAWS} and {MAX_DRAWS}",
-                sim.draws
-            ),
+            reason: format!("{} draws were asked for; use between {MIN_DRAWS} and {MAX_DRAWS}", sim.draws),
         });
     }
     if !(model.rate_unit.is_finite() && model.rate_unit > 0.0) {
         return Err(EngineError::BadSimulationOption {
             option: "rate unit".to_owned(),
-            reason: format!(
-                "the rate unit must be a positive number, not {}",
-                model.rate_unit
-            ),
+            reason: format!("the rate unit must be a positive number, not {}", model.rate_unit),
         });
     }
     let transform = model.fit.design().spec().response_transform;
@@ -940,9 +870,7 @@ pub fn allocate(
             Scale::Log { smearing }
         }
         Some(t) => {
-            return Err(EngineError::UnsupportedResponseTransform {
-                label: t.label("rate"),
-            });
+            return Err(EngineError::UnsupportedResponseTransform { label: t.label("rate") });
         }
     };
     let mut budget_map: BTreeMap<&str, u64> = BTreeMap::new();
@@ -968,16 +896,8 @@ pub fn allocate(
     let floors_u: Vec<u64> = vec![opts.floor.unwrap_or(0); n];
     let caps_u: Vec<u64> = vec![opts.cap.unwrap_or(u64::MAX); n];
     let floors: Vec<f64> = floors_u.iter().map(|&v| v as f64).collect();
-    let caps: Vec<f64> = caps_u
-        .iter()
-        .map(|&v| {
-            if v == u64::MAX {
-                f64::INFINITY
-            } else {
-                v as f64
-            }
-        })
-        .collect();
+    let caps: Vec<f64> =
+        caps_u.iter().map(|&v| if v == u64::MAX { f64::INFINITY } else { v as f64 }).collect();
     let place = |s: &[f64]| -> (Vec<f64>, Vec<BoundStatus>, Vec<u64>) {
         let (a, st) = water_fill(s, total, &floors, &caps);
         let w = largest_remainder(&a, opts.total, &floors_u, &caps_u);
@@ -1005,10 +925,7 @@ pub fn allocate(
                 max_k = k;
             }
         }
-        let moved: u128 = (0..n)
-            .map(|k| u128::from(ai[k].abs_diff(aj[k])))
-            .sum::<u128>()
-            / 2;
+        let moved: u128 = (0..n).map(|k| u128::from(ai[k].abs_diff(aj[k]))).sum::<u128>() / 2;
         comparisons.push(BasisComparison {
             first: bi,
             second: bj,
@@ -1035,11 +952,7 @@ pub fn allocate(
     };
 
     // Simulation of the coefficient distribution.
-    let sim_basis = if opts.basis.uses_model() {
-        opts.basis
-    } else {
-        Basis::Expected
-    };
+    let sim_basis = if opts.basis.uses_model() { opts.basis } else { Basis::Expected };
     let (factor, factor_kind) = covariance_factor(model.fit.covariance())?;
     let p = beta.len();
     let mut normal = Normal::new(sim.seed);
@@ -1074,10 +987,7 @@ pub fn allocate(
         }
     }
     let share_ranges: Vec<Percentiles> = share_draws.iter().map(|v| percentiles(v)).collect();
-    let max_share_width_pp = share_ranges
-        .iter()
-        .map(|p| 100.0 * (p.p97_5 - p.p2_5))
-        .fold(0.0, f64::max);
+    let max_share_width_pp = share_ranges.iter().map(|p| 100.0 * (p.p97_5 - p.p2_5)).fold(0.0, f64::max);
     let uncertainty = Uncertainty {
         seed: sim.seed,
         draws: sim.draws,
@@ -1149,10 +1059,7 @@ pub fn allocate(
     let unmatched_budgets: Vec<BudgetRow> = budget_map
         .iter()
         .filter(|(k, _)| !district_keys.contains(*k))
-        .map(|(k, &amount)| BudgetRow {
-            key: (*k).to_owned(),
-            amount,
-        })
+        .map(|(k, &amount)| BudgetRow { key: (*k).to_owned(), amount })
         .collect();
 
     // Notes.
@@ -1182,20 +1089,14 @@ pub fn allocate(
             opts.basis.name()
         ));
     }
-    let no_budget: Vec<&str> = out
-        .iter()
-        .filter(|d| d.current == CurrentBudget::NoCurrentBudget)
-        .map(|d| d.key.as_str())
-        .collect();
+    let no_budget: Vec<&str> =
+        out.iter().filter(|d| d.current == CurrentBudget::NoCurrentBudget).map(|d| d.key.as_str()).collect();
     if !no_budget.is_empty() {
         notes.push(format!("No current budget: {}.", no_budget.join(", ")));
     }
     if !unmatched_budgets.is_empty() {
         let keys: Vec<&str> = unmatched_budgets.iter().map(|b| b.key.as_str()).collect();
-        notes.push(format!(
-            "Budget rows that match no district: {}.",
-            keys.join(", ")
-        ));
+        notes.push(format!("Budget rows that match no district: {}.", keys.join(", ")));
     }
     let out_of_fit: Vec<&str> = out
         .iter()
@@ -1208,11 +1109,7 @@ pub fn allocate(
             out_of_fit.join(", ")
         ));
     }
-    let clamped_keys: Vec<&str> = out
-        .iter()
-        .filter(|d| d.expected_clamped)
-        .map(|d| d.key.as_str())
-        .collect();
+    let clamped_keys: Vec<&str> = out.iter().filter(|d| d.expected_clamped).map(|d| d.key.as_str()).collect();
     if !clamped_keys.is_empty() {
         notes.push(format!(
             "The model predicts a negative rate for {}; expected incidents there are set to 0.",

@@ -55,10 +55,7 @@ pub struct Column {
 impl Column {
     /// A numeric column with possibly missing cells.
     pub fn numeric(name: impl Into<String>, values: Vec<Option<f64>>) -> Self {
-        Self {
-            name: name.into(),
-            data: ColumnData::Numeric(values),
-        }
+        Self { name: name.into(), data: ColumnData::Numeric(values) }
     }
 
     /// A numeric column without missing cells.
@@ -68,10 +65,7 @@ impl Column {
 
     /// A text column with possibly missing cells.
     pub fn text(name: impl Into<String>, values: Vec<Option<String>>) -> Self {
-        Self {
-            name: name.into(),
-            data: ColumnData::Text(values),
-        }
+        Self { name: name.into(), data: ColumnData::Text(values) }
     }
 
     /// A text column without missing cells.
@@ -100,9 +94,7 @@ impl Table {
         let mut names = HashSet::new();
         for c in &columns {
             if !names.insert(c.name.as_str()) {
-                return Err(EngineError::DuplicateColumn {
-                    name: c.name.clone(),
-                });
+                return Err(EngineError::DuplicateColumn { name: c.name.clone() });
             }
             if c.data.len() != keys.len() {
                 return Err(EngineError::DimensionMismatch {

@@ -105,19 +105,14 @@ impl Design {
         used.extend(spec.weights.as_deref());
         let mut seen = HashSet::new();
         used.retain(|c| seen.insert(*c));
-        let used_cols: Vec<&ColumnData> = used
-            .iter()
-            .map(|c| &table.column(c).expect("checked by check_spec").data)
-            .collect();
+        let used_cols: Vec<&ColumnData> =
+            used.iter().map(|c| &table.column(c).expect("checked by check_spec").data).collect();
 
         let mut keep = Vec::new();
         let mut dropped = Vec::new();
         for (i, key) in tkeys.iter().enumerate() {
             if let Some(reason) = excluded.get(key.as_str()) {
-                dropped.push(DroppedRow {
-                    key: key.clone(),
-                    reason: format!("excluded: {reason}"),
-                });
+                dropped.push(DroppedRow { key: key.clone(), reason: format!("excluded: {reason}") });
                 continue;
             }
             let missing: Vec<String> = used
@@ -132,10 +127,7 @@ impl Design {
                 } else {
                     format!("missing values in {}", join_names(&missing))
                 };
-                dropped.push(DroppedRow {
-                    key: key.clone(),
-                    reason,
-                });
+                dropped.push(DroppedRow { key: key.clone(), reason });
                 continue;
             }
             keep.push(i);
@@ -147,12 +139,7 @@ impl Design {
 
         // Response.
         let raw_y = numeric_values(table, &spec.response, &keep, &keys)?;
-        let y = transform_values(
-            &raw_y,
-            &spec.response,
-            spec.response_transform.as_ref(),
-            &keys,
-        )?;
+        let y = transform_values(&raw_y, &spec.response, spec.response_transform.as_ref(), &keys)?;
 
         // Weights.
         let weights = match &spec.weights {
@@ -162,10 +149,7 @@ impl Design {
                     ColumnData::Numeric(v) => v,
                     ColumnData::Text(_) => unreachable!("checked by check_spec"),
                 };
-                let vals: Vec<f64> = keep
-                    .iter()
-                    .map(|&i| data[i].expect("missing dropped"))
-                    .collect();
+                let vals: Vec<f64> = keep.iter().map(|&i| data[i].expect("missing dropped")).collect();
                 check_weights(&vals, &keys)?;
                 Some(vals)
             }
@@ -186,23 +170,13 @@ impl Design {
             match &col.data {
                 ColumnData::Numeric(_) => {
                     let raw = numeric_values(table, &p.column, &keep, &keys)?;
-                    cols.push(transform_values(
-                        &raw,
-                        &p.column,
-                        p.transform.as_ref(),
-                        &keys,
-                    )?);
+                    cols.push(transform_values(&raw, &p.column, p.transform.as_ref(), &keys)?);
                     names.push(p.label());
-                    kinds.push(TermKind::Numeric {
-                        column: p.column.clone(),
-                        transform: p.transform,
-                    });
+                    kinds.push(TermKind::Numeric { column: p.column.clone(), transform: p.transform });
                 }
                 ColumnData::Text(v) => {
-                    let vals: Vec<&str> = keep
-                        .iter()
-                        .map(|&i| v[i].as_deref().expect("missing dropped"))
-                        .collect();
+                    let vals: Vec<&str> =
+                        keep.iter().map(|&i| v[i].as_deref().expect("missing dropped")).collect();
                     let levels: BTreeSet<&str> = vals.iter().copied().collect();
                     let reference = match &p.reference_level {
                         Some(r) => {
@@ -217,41 +191,20 @@ impl Design {
                         None => (*levels.iter().next().expect("at least one row")).to_owned(),
                     };
                     if levels.len() < 2 {
-                        return Err(EngineError::SingleLevel {
-                            column: p.column.clone(),
-                            level: reference,
-                        });
+                        return Err(EngineError::SingleLevel { column: p.column.clone(), level: reference });
                     }
-                    let others: Vec<String> = levels
-                        .iter()
-                        .filter(|l| **l != reference)
-                        .map(|l| (*l).to_owned())
-                        .collect();
+                    let others: Vec<String> =
+                        levels.iter().filter(|l| **l != reference).map(|l| (*l).to_owned()).collect();
                     for l in &others {
-                        cols.push(
-                            vals.iter()
-                                .map(|v| if v == l { 1.0 } else { 0.0 })
-                                .collect(),
-                        );
+                        cols.push(vals.iter().map(|v| if v == l { 1.0 } else { 0.0 }).collect());
                         names.push(format!("{}={}", p.column, l));
                     }
-                    kinds.push(TermKind::Categorical {
-                        column: p.column.clone(),
-                        reference,
-                        levels: others,
-                    });
+                    kinds.push(TermKind::Categorical { column: p.column.clone(), reference, levels: others });
                 }
             }
-            terms.push(Term {
-                label: p.label(),
-                columns: start..cols.len(),
-            });
+            terms.push(Term { label: p.label(), columns: start..cols.len() });
         }
-        let x = if cols.is_empty() {
-            Matrix::zeros(keep.len(), 0)
-        } else {
-            Matrix::from_columns(&cols)
-        };
+        let x = if cols.is_empty() { Matrix::zeros(keep.len(), 0) } else { Matrix::from_columns(&cols) };
         Ok(Design {
             x: Arc::new(x),
             y: Arc::new(y),
@@ -315,9 +268,7 @@ impl Design {
             }
         }
         if !has_const && seen.contains(INTERCEPT_LABEL) {
-            return Err(EngineError::DuplicatePredictor {
-                name: INTERCEPT_LABEL.to_owned(),
-            });
+            return Err(EngineError::DuplicatePredictor { name: INTERCEPT_LABEL.to_owned() });
         }
         for (j, name) in column_names.iter().enumerate() {
             check_finite(x.column(j), name, &keys)?;
@@ -349,17 +300,11 @@ impl Design {
         let terms = predictor_names
             .iter()
             .enumerate()
-            .map(|(k, l)| Term {
-                label: l.clone(),
-                columns: first + k..first + k + 1,
-            })
+            .map(|(k, l)| Term { label: l.clone(), columns: first + k..first + k + 1 })
             .collect();
         let kinds = predictor_names
             .iter()
-            .map(|l| TermKind::Numeric {
-                column: l.clone(),
-                transform: None,
-            })
+            .map(|l| TermKind::Numeric { column: l.clone(), transform: None })
             .collect();
         let spec = ModelSpec {
             response: "y".to_owned(),
@@ -469,16 +414,10 @@ impl Design {
                 cols.push(j);
                 names.push(self.column_names[j].clone());
             }
-            terms.push(Term {
-                label: term.label.clone(),
-                columns: start..cols.len(),
-            });
+            terms.push(Term { label: term.label.clone(), columns: start..cols.len() });
         }
         let mut spec = self.spec.clone();
-        spec.predictors = term_idx
-            .iter()
-            .map(|&t| self.spec.predictors[t].clone())
-            .collect();
+        spec.predictors = term_idx.iter().map(|&t| self.spec.predictors[t].clone()).collect();
         Design {
             x: Arc::new(self.x.select_columns(&cols)),
             y: self.y.clone(),
@@ -495,12 +434,7 @@ impl Design {
 
     /// A design without the rows with these keys; they are recorded as dropped ("left out").
     pub fn without_rows(&self, keys: &[String]) -> Result<Design> {
-        let pos: HashMap<&str, usize> = self
-            .keys
-            .iter()
-            .enumerate()
-            .map(|(i, k)| (k.as_str(), i))
-            .collect();
+        let pos: HashMap<&str, usize> = self.keys.iter().enumerate().map(|(i, k)| (k.as_str(), i)).collect();
         let mut out = HashSet::new();
         for k in keys {
             match pos.get(k.as_str()) {
@@ -517,10 +451,9 @@ impl Design {
         let mut d = self.select_rows(&rows);
         let mut left: Vec<usize> = out.into_iter().collect();
         left.sort_unstable();
-        d.dropped.extend(left.into_iter().map(|i| DroppedRow {
-            key: self.keys[i].clone(),
-            reason: "left out".to_owned(),
-        }));
+        d.dropped.extend(
+            left.into_iter().map(|i| DroppedRow { key: self.keys[i].clone(), reason: "left out".to_owned() }),
+        );
         Ok(d)
     }
 
@@ -533,10 +466,7 @@ impl Design {
         Design {
             x: Arc::new(self.x.select_rows(rows)),
             y: Arc::new(rows.iter().map(|&i| self.y[i]).collect()),
-            weights: self
-                .weights
-                .as_ref()
-                .map(|w| Arc::new(rows.iter().map(|&i| w[i]).collect())),
+            weights: self.weights.as_ref().map(|w| Arc::new(rows.iter().map(|&i| w[i]).collect())),
             column_names: self.column_names.clone(),
             terms: self.terms.clone(),
             kinds: self.kinds.clone(),
@@ -550,8 +480,7 @@ impl Design {
     /// Builds one design row from raw predictor values (transforms and dummies applied), for
     /// prediction. Every predictor must be given; values for other columns are an error.
     pub fn row_for_prediction(&self, values: &[(String, PredictorValue)]) -> Result<Vec<f64>> {
-        let lookup: HashMap<&str, &PredictorValue> =
-            values.iter().map(|(k, v)| (k.as_str(), v)).collect();
+        let lookup: HashMap<&str, &PredictorValue> = values.iter().map(|(k, v)| (k.as_str(), v)).collect();
         let mut used = HashSet::new();
         let mut row = Vec::with_capacity(self.ncols());
         if self.intercept {
@@ -563,9 +492,7 @@ impl Design {
                     used.insert(column.as_str());
                     let v = match lookup.get(column.as_str()) {
                         None => {
-                            return Err(EngineError::MissingValue {
-                                column: column.clone(),
-                            });
+                            return Err(EngineError::MissingValue { column: column.clone() });
                         }
                         Some(PredictorValue::Number(v)) => *v,
                         Some(PredictorValue::Level(_)) => {
@@ -579,26 +506,17 @@ impl Design {
                     check_finite(&[v], column, &keys)?;
                     row.extend(transform_values(&[v], column, transform.as_ref(), &keys)?);
                 }
-                TermKind::Categorical {
-                    column,
-                    reference,
-                    levels,
-                } => {
+                TermKind::Categorical { column, reference, levels } => {
                     used.insert(column.as_str());
                     let level = match lookup.get(column.as_str()) {
                         None => {
-                            return Err(EngineError::MissingValue {
-                                column: column.clone(),
-                            });
+                            return Err(EngineError::MissingValue { column: column.clone() });
                         }
                         Some(PredictorValue::Level(l)) => l.clone(),
                         Some(PredictorValue::Number(v)) => v.to_string(),
                     };
                     if &level != reference && !levels.contains(&level) {
-                        return Err(EngineError::UnknownLevel {
-                            column: column.clone(),
-                            level,
-                        });
+                        return Err(EngineError::UnknownLevel { column: column.clone(), level });
                     }
                     row.extend(levels.iter().map(|l| if *l == level { 1.0 } else { 0.0 }));
                 }
@@ -615,18 +533,10 @@ impl Design {
 
 /// Checks the spec's names and kinds against the table before any row is looked at.
 fn check_spec(table: &Table, spec: &ModelSpec) -> Result<()> {
-    let col = |name: &str| {
-        table
-            .column(name)
-            .ok_or_else(|| EngineError::UnknownColumn {
-                name: name.to_owned(),
-            })
-    };
+    let col =
+        |name: &str| table.column(name).ok_or_else(|| EngineError::UnknownColumn { name: name.to_owned() });
     if !col(&spec.response)?.data.is_numeric() {
-        return Err(EngineError::NotNumeric {
-            column: spec.response.clone(),
-            role: "response".to_owned(),
-        });
+        return Err(EngineError::NotNumeric { column: spec.response.clone(), role: "response".to_owned() });
     }
     if let Some(t) = &spec.response_transform {
         t.validate(&spec.response)?;
@@ -634,10 +544,7 @@ fn check_spec(table: &Table, spec: &ModelSpec) -> Result<()> {
     if let Some(w) = &spec.weights
         && !col(w)?.data.is_numeric()
     {
-        return Err(EngineError::NotNumeric {
-            column: w.clone(),
-            role: "weights".to_owned(),
-        });
+        return Err(EngineError::NotNumeric { column: w.clone(), role: "weights".to_owned() });
     }
     if !spec.intercept && spec.predictors.is_empty() {
         return Err(EngineError::EmptyModel);
@@ -645,9 +552,7 @@ fn check_spec(table: &Table, spec: &ModelSpec) -> Result<()> {
     let mut labels = HashSet::new();
     for p in &spec.predictors {
         if p.column == spec.response {
-            return Err(EngineError::ResponseAsPredictor {
-                name: p.column.clone(),
-            });
+            return Err(EngineError::ResponseAsPredictor { name: p.column.clone() });
         }
         let c = col(&p.column)?;
         if !labels.insert(p.label()) {
@@ -663,9 +568,7 @@ fn check_spec(table: &Table, spec: &ModelSpec) -> Result<()> {
             t.validate(&p.column)?;
         }
         if p.reference_level.is_some() && c.data.is_numeric() {
-            return Err(EngineError::ReferenceOnNumeric {
-                column: p.column.clone(),
-            });
+            return Err(EngineError::ReferenceOnNumeric { column: p.column.clone() });
         }
     }
     Ok(())
@@ -676,16 +579,10 @@ fn numeric_values(table: &Table, name: &str, keep: &[usize], keys: &[String]) ->
     let data = match &table.column(name).expect("checked").data {
         ColumnData::Numeric(v) => v,
         ColumnData::Text(_) => {
-            return Err(EngineError::NotNumeric {
-                column: name.to_owned(),
-                role: "response".to_owned(),
-            });
+            return Err(EngineError::NotNumeric { column: name.to_owned(), role: "response".to_owned() });
         }
     };
-    let vals: Vec<f64> = keep
-        .iter()
-        .map(|&i| data[i].expect("missing rows were dropped"))
-        .collect();
+    let vals: Vec<f64> = keep.iter().map(|&i| data[i].expect("missing rows were dropped")).collect();
     check_finite(&vals, name, keys)?;
     Ok(vals)
 }
@@ -693,10 +590,7 @@ fn numeric_values(table: &Table, name: &str, keep: &[usize], keys: &[String]) ->
 /// Errors on the first NaN or infinite value.
 fn check_finite(vals: &[f64], column: &str, keys: &[String]) -> Result<()> {
     match vals.iter().position(|v| !v.is_finite()) {
-        Some(i) => Err(EngineError::NonFinite {
-            column: column.to_owned(),
-            row_key: keys[i].clone(),
-        }),
+        Some(i) => Err(EngineError::NonFinite { column: column.to_owned(), row_key: keys[i].clone() }),
         None => Ok(()),
     }
 }
@@ -704,21 +598,13 @@ fn check_finite(vals: &[f64], column: &str, keys: &[String]) -> Result<()> {
 /// Errors on the first weight that is not a positive finite number.
 fn check_weights(w: &[f64], keys: &[String]) -> Result<()> {
     match w.iter().position(|v| !(v.is_finite() && *v > 0.0)) {
-        Some(i) => Err(EngineError::BadWeight {
-            row_key: keys[i].clone(),
-            value: w[i],
-        }),
+        Some(i) => Err(EngineError::BadWeight { row_key: keys[i].clone(), value: w[i] }),
         None => Ok(()),
     }
 }
 
 /// Applies a transform, naming the first row outside its domain.
-fn transform_values(
-    vals: &[f64],
-    column: &str,
-    t: Option<&Transform>,
-    keys: &[String],
-) -> Result<Vec<f64>> {
+fn transform_values(vals: &[f64], column: &str, t: Option<&Transform>, keys: &[String]) -> Result<Vec<f64>> {
     let Some(t) = t else {
         return Ok(vals.to_vec());
     };

@@ -94,12 +94,7 @@ pub fn t_isf(q: f64, df: f64) -> f64 {
     if !t.is_finite() || t <= 0.0 {
         t = norm_isf(q);
     }
-    polish_upper(
-        t,
-        q,
-        |x| t_sf(x, df),
-        |x| beta_prefactor_ratio(0.5 * df, 0.5, x * x / df),
-    )
+    polish_upper(t, q, |x| t_sf(x, df), |x| beta_prefactor_ratio(0.5 * df, 0.5, x * x / df))
 }
 
 /// Lower quantile: the `t` with `P(T ≤ t) = p`.
@@ -172,11 +167,7 @@ pub fn f_isf(q: f64, d1: f64, d2: f64) -> f64 {
         let v = inv_beta_reg(0.5 * d1, 0.5 * d2, 1.0 - q);
         d2 / (d1 * (1.0 / v - 1.0))
     };
-    let start = if start.is_finite() && start > 0.0 {
-        start
-    } else {
-        1.0
-    };
+    let start = if start.is_finite() && start > 0.0 { start } else { 1.0 };
     if q <= 0.5 {
         polish_upper(start, q, |x| f_sf(x, d1, d2), |x| f_slope(x, d1, d2))
     } else {
@@ -198,11 +189,7 @@ pub fn f_quantile(p: f64, d1: f64, d2: f64) -> f64 {
     if p <= 0.5 {
         let v = inv_beta_reg(0.5 * d1, 0.5 * d2, p);
         let start = d2 / (d1 * (1.0 / v - 1.0));
-        let start = if start.is_finite() && start > 0.0 {
-            start
-        } else {
-            1.0
-        };
+        let start = if start.is_finite() && start > 0.0 { start } else { 1.0 };
         polish_lower(start, p, |x| f_cdf(x, d1, d2), |x| f_slope(x, d1, d2))
     } else {
         f_isf(1.0 - p, d1, d2)
@@ -260,19 +247,9 @@ pub fn chi2_isf(q: f64, df: f64) -> f64 {
     }
     let start = chi2_start(q, df);
     if q <= 0.5 {
-        polish_upper(
-            start,
-            q,
-            |x| chi2_sf(x, df),
-            |x| gamma_prefactor(0.5 * df, 0.5 * x),
-        )
+        polish_upper(start, q, |x| chi2_sf(x, df), |x| gamma_prefactor(0.5 * df, 0.5 * x))
     } else {
-        polish_lower(
-            start,
-            1.0 - q,
-            |x| chi2_cdf(x, df),
-            |x| gamma_prefactor(0.5 * df, 0.5 * x),
-        )
+        polish_lower(start, 1.0 - q, |x| chi2_cdf(x, df), |x| gamma_prefactor(0.5 * df, 0.5 * x))
     }
 }
 
@@ -283,12 +260,7 @@ pub fn chi2_quantile(p: f64, df: f64) -> f64 {
     }
     if p <= 0.5 && p > 0.0 && !bad_df(df) {
         let start = chi2_start(1.0 - p, df);
-        return polish_lower(
-            start,
-            p,
-            |x| chi2_cdf(x, df),
-            |x| gamma_prefactor(0.5 * df, 0.5 * x),
-        );
+        return polish_lower(start, p, |x| chi2_cdf(x, df), |x| gamma_prefactor(0.5 * df, 0.5 * x));
     }
     chi2_isf(1.0 - p, df)
 }
@@ -381,11 +353,7 @@ fn polish_lower(start: f64, p: f64, cdf: impl Fn(f64) -> f64, x_pdf: impl Fn(f64
 /// Returns the iterate with the smallest `|g|`.
 fn polish(start: f64, target: f64, tail: impl Fn(f64) -> f64, x_dtail: impl Fn(f64) -> f64) -> f64 {
     let lt = target.ln();
-    let mut x = if start.is_finite() && start > 0.0 {
-        start
-    } else {
-        1.0
-    };
+    let mut x = if start.is_finite() && start > 0.0 { start } else { 1.0 };
     let mut best = x;
     let mut best_err = f64::INFINITY;
     for _ in 0..60 {

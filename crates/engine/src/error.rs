@@ -24,7 +24,9 @@ pub enum EngineError {
     },
 
     /// A predictor takes one value in every row, which duplicates the intercept.
-    #[error("{column} has the same value in every row used, so its effect cannot be separated from the intercept")]
+    #[error(
+        "{column} has the same value in every row used, so its effect cannot be separated from the intercept"
+    )]
     ConstantPredictor {
         /// The column's label.
         column: String,
@@ -238,7 +240,9 @@ pub enum EngineError {
     },
 
     /// Grouped cross-validation has fewer groups than folds.
-    #[error("grouped cross-validation needs at least {folds} groups for {folds} folds, but {column} has only {groups}")]
+    #[error(
+        "grouped cross-validation needs at least {folds} groups for {folds} folds, but {column} has only {groups}"
+    )]
     TooFewGroups {
         /// The grouping column.
         column: String,
@@ -249,7 +253,9 @@ pub enum EngineError {
     },
 
     /// Blend weights of an allocation basis are out of range or do not sum to 1.
-    #[error("the blend weights are not usable: {reason}; give each basis a weight between 0 and 1 so that they sum to 1")]
+    #[error(
+        "the blend weights are not usable: {reason}; give each basis a weight between 0 and 1 so that they sum to 1"
+    )]
     BadBlendWeights {
         /// What is wrong.
         reason: String,
@@ -313,7 +319,9 @@ pub enum EngineError {
     },
 
     /// A district has no model prediction for the expected-incidents basis.
-    #[error("district {key} has no model-expected incidents because {why}; supply its indicator values or leave it out of the allocation")]
+    #[error(
+        "district {key} has no model-expected incidents because {why}; supply its indicator values or leave it out of the allocation"
+    )]
     NoExpected {
         /// The district key.
         key: String,
@@ -322,7 +330,9 @@ pub enum EngineError {
     },
 
     /// The model's response transform cannot be turned back into a rate for allocation.
-    #[error("expected incidents need a response that is the rate or its log; {label} cannot be turned back into a rate here")]
+    #[error(
+        "expected incidents need a response that is the rate or its log; {label} cannot be turned back into a rate here"
+    )]
     UnsupportedResponseTransform {
         /// The transformed response's label.
         label: String,
@@ -338,7 +348,9 @@ pub enum EngineError {
     },
 
     /// A covariance matrix has a clearly negative eigenvalue.
-    #[error("the coefficient covariance has a negative eigenvalue ({eigenvalue:e}), so coefficients cannot be simulated from it")]
+    #[error(
+        "the coefficient covariance has a negative eigenvalue ({eigenvalue:e}), so coefficients cannot be simulated from it"
+    )]
     NotPositiveSemidefinite {
         /// The most negative eigenvalue found.
         eigenvalue: f64,
@@ -378,7 +390,8 @@ fn aliased_message(column: &str, combination: &[String]) -> String {
         return format!("{column} is zero in every row used, so its effect cannot be estimated");
     }
     // Named columns first, in design order, and the intercept last, in words.
-    let mut names: Vec<String> = combination.iter().filter(|c| *c != crate::INTERCEPT_LABEL).cloned().collect();
+    let mut names: Vec<String> =
+        combination.iter().filter(|c| *c != crate::INTERCEPT_LABEL).cloned().collect();
     if combination.iter().any(|c| c == crate::INTERCEPT_LABEL) {
         names.push("the intercept".to_owned());
     }

@@ -135,17 +135,13 @@ impl Fit {
             for (j, name) in names.iter().enumerate().skip(first) {
                 let c = x.column(j);
                 if c.iter().all(|&v| v == c[0]) {
-                    return Err(EngineError::ConstantPredictor {
-                        column: name.clone(),
-                    });
+                    return Err(EngineError::ConstantPredictor { column: name.clone() });
                 }
             }
         }
         let y = design.y();
         if design.has_intercept() && y.iter().all(|&v| v == y[0]) {
-            return Err(EngineError::ConstantResponse {
-                column: design.response_label(),
-            });
+            return Err(EngineError::ConstantResponse { column: design.response_label() });
         }
 
         // Weighted problem: rows scaled by √w.
@@ -160,25 +156,15 @@ impl Fit {
                         *v *= si;
                     }
                 }
-                (
-                    Cow::Owned(xw),
-                    y.iter().zip(s).map(|(a, b)| a * b).collect(),
-                )
+                (Cow::Owned(xw), y.iter().zip(s).map(|(a, b)| a * b).collect())
             }
         };
 
         let qr = PivotedQr::factor(&xw, &opts.qr);
         if qr.rank() < p {
             let col = qr.aliased_columns()[0];
-            let combination = qr
-                .alias_combination(col)
-                .into_iter()
-                .map(|(j, _)| names[j].clone())
-                .collect();
-            return Err(EngineError::Aliased {
-                column: names[col].clone(),
-                combination,
-            });
+            let combination = qr.alias_combination(col).into_iter().map(|(j, _)| names[j].clone()).collect();
+            return Err(EngineError::Aliased { column: names[col].clone(), combination });
         }
         let ls = qr.least_squares(&yw);
         let b = ls.coefficients;
@@ -203,9 +189,7 @@ impl Fit {
             sum_wy2
         };
         if ssto == 0.0 {
-            return Err(EngineError::ConstantResponse {
-                column: design.response_label(),
-            });
+            return Err(EngineError::ConstantResponse { column: design.response_label() });
         }
         let ssr = (ssto - sse).max(0.0);
         let df_model = p - first;
@@ -225,9 +209,7 @@ impl Fit {
             }
             c
         };
-        let std_errors: Vec<f64> = (0..p)
-            .map(|j| covariance.get(j, j).max(0.0).sqrt())
-            .collect();
+        let std_errors: Vec<f64> = (0..p).map(|j| covariance.get(j, j).max(0.0).sqrt()).collect();
         let df = df_resid as f64;
         let (t_values, p_values): (Vec<Option<f64>>, Vec<Option<f64>>) = b
             .iter()
@@ -249,11 +231,7 @@ impl Fit {
                 return (None, None);
             }
             if exact {
-                return if ss > 0.0 {
-                    (Some(f64::INFINITY), None)
-                } else {
-                    (None, None)
-                };
+                return if ss > 0.0 { (Some(f64::INFINITY), None) } else { (None, None) };
             }
             let f = (ss / dfn as f64) / mse;
             (Some(f), Some(dist::f_sf(f, dfn as f64, df)))
@@ -270,14 +248,7 @@ impl Fit {
                 let ss = sum_dd(t.columns.clone().map(|k| effects[k] * effects[k]));
                 let dfn = t.columns.len();
                 let (f, pv) = f_test(ss, dfn);
-                AnovaRow {
-                    term: t.label.clone(),
-                    df: dfn,
-                    ss,
-                    ms: ss / dfn.max(1) as f64,
-                    f,
-                    p: pv,
-                }
+                AnovaRow { term: t.label.clone(), df: dfn, ss, ms: ss / dfn.max(1) as f64, f, p: pv }
             })
             .collect();
 
@@ -290,13 +261,7 @@ impl Fit {
                 let idx: Vec<usize> = t.columns.clone().collect();
                 let extra_ss = wald_quadratic(&unscaled_cov, &b, &idx).max(0.0);
                 let (f, pv) = f_test(extra_ss, idx.len());
-                PartialF {
-                    term: t.label.clone(),
-                    df: idx.len(),
-                    extra_ss,
-                    f,
-                    p: pv,
-                }
+                PartialF { term: t.label.clone(), df: idx.len(), extra_ss, f, p: pv }
             })
             .collect();
 
@@ -398,12 +363,7 @@ impl Fit {
     /// Confidence intervals `b ± t_{1−α/2, n−p}·se` at the given level.
     pub fn conf_int(&self, level: f64) -> Result<Vec<(f64, f64)>> {
         let q = self.t_critical(level)?;
-        Ok(self
-            .coefficients
-            .iter()
-            .zip(&self.std_errors)
-            .map(|(&b, &s)| (b - q * s, b + q * s))
-            .collect())
+        Ok(self.coefficients.iter().zip(&self.std_errors).map(|(&b, &s)| (b - q * s, b + q * s)).collect())
     }
 
     /// The covariance matrix of the coefficients, `MSE·(XᵀWX)⁻¹` (zero in an exact fit).
@@ -448,11 +408,7 @@ impl Fit {
 
     /// Which basis [`Fit::ssto`] uses.
     pub fn ss_basis(&self) -> SsBasis {
-        if self.design.has_intercept() {
-            SsBasis::AboutMean
-        } else {
-            SsBasis::AboutZero
-        }
+        if self.design.has_intercept() { SsBasis::AboutMean } else { SsBasis::AboutZero }
     }
 
     /// Model degrees of freedom (coefficients other than the intercept).
@@ -551,12 +507,7 @@ impl Fit {
     /// Predictions for new design rows (as built by [`Design::row_for_prediction`]), with the
     /// confidence interval of the mean and the prediction interval of a new observation. Under
     /// WLS, `weights` gives each new row's weight (1 when omitted).
-    pub fn predict(
-        &self,
-        rows: &Matrix,
-        weights: Option<&[f64]>,
-        level: f64,
-    ) -> Result<Vec<Prediction>> {
+    pub fn predict(&self, rows: &Matrix, weights: Option<&[f64]>, level: f64) -> Result<Vec<Prediction>> {
         let q = self.t_critical(level)?;
         let p = self.nparams();
         if rows.ncols() != p {
@@ -577,10 +528,7 @@ impl Fit {
                 });
             }
             if let Some(i) = w.iter().position(|v| !(v.is_finite() && *v > 0.0)) {
-                return Err(EngineError::BadWeight {
-                    row_key: row_key(i),
-                    value: w[i],
-                });
+                return Err(EngineError::BadWeight { row_key: row_key(i), value: w[i] });
             }
         }
         let mse = if self.exact { 0.0 } else { self.mse };
@@ -623,11 +571,7 @@ fn wald_quadratic(c: &Matrix, b: &[f64], idx: &[usize]) -> f64 {
     let k = idx.len();
     if k == 1 {
         let v = c.get(idx[0], idx[0]);
-        return if v > 0.0 {
-            b[idx[0]] * b[idx[0]] / v
-        } else {
-            0.0
-        };
+        return if v > 0.0 { b[idx[0]] * b[idx[0]] / v } else { 0.0 };
     }
     // Cholesky L Lᵀ = C_TT.
     let mut l = vec![0.0; k * k];

@@ -39,9 +39,7 @@ pub const DEFAULT_RANK_TOLERANCE: f64 = 1e-11;
 
 impl Default for QrOptions {
     fn default() -> Self {
-        Self {
-            rank_tolerance: DEFAULT_RANK_TOLERANCE,
-        }
+        Self { rank_tolerance: DEFAULT_RANK_TOLERANCE }
     }
 }
 
@@ -132,15 +130,7 @@ impl PivotedQr {
         for (pos, done) in applied.iter().enumerate().skip(rank) {
             apply_reflectors(&mut qr, &tau, *done, rank, pos);
         }
-        PivotedQr {
-            x: x.clone(),
-            qr,
-            tau,
-            perm,
-            scale,
-            rank,
-            remaining,
-        }
+        PivotedQr { x: x.clone(), qr, tau, perm, scale, rank, remaining }
     }
 
     /// The numerical rank.
@@ -166,10 +156,7 @@ impl PivotedQr {
 
     /// The smallest remaining length among the columns taken (1 for an empty design).
     pub fn min_remaining_length(&self) -> f64 {
-        self.perm[..self.rank]
-            .iter()
-            .map(|&j| self.remaining[j])
-            .fold(1.0, f64::min)
+        self.perm[..self.rank].iter().map(|&j| self.remaining[j]).fold(1.0, f64::min)
     }
 
     /// For an aliased column (original index `col`), the columns it is a combination of, as
@@ -212,11 +199,7 @@ impl PivotedQr {
     /// Panics if `y.len()` differs from the row count (a programming error).
     pub fn least_squares(&self, y: &[f64]) -> LeastSquares {
         let n = self.x.nrows();
-        assert_eq!(
-            y.len(),
-            n,
-            "PivotedQr::least_squares: wrong response length"
-        );
+        assert_eq!(y.len(), n, "PivotedQr::least_squares: wrong response length");
         let p = self.x.ncols();
         let r = self.rank;
         // Work in pivoted, scaled coordinates z, with β[perm[k]] = z[k] / scale[perm[k]].
@@ -247,8 +230,7 @@ impl PivotedQr {
             // (Björck 1967), so once a correction is below 10⁻⁸ the error left is below δ², under
             // the rounding level, and another step would change nothing.
             let z_norm = norm2(&z);
-            if it == MAX_REFINEMENT_STEPS || dz_norm == 0.0 || (it > 0 && dz_norm <= 1e-8 * z_norm)
-            {
+            if it == MAX_REFINEMENT_STEPS || dz_norm == 0.0 || (it > 0 && dz_norm <= 1e-8 * z_norm) {
                 break;
             }
             // New residuals of the augmented system in compensated arithmetic.
@@ -265,11 +247,7 @@ impl PivotedQr {
         let zero = vec![0.0; n];
         let residuals = residual_dd(&self.x, y, &zero, &beta);
         debug_assert_eq!(beta.len(), p);
-        LeastSquares {
-            coefficients: beta,
-            residuals,
-            refinement_steps: steps,
-        }
+        LeastSquares { coefficients: beta, residuals, refinement_steps: steps }
     }
 
     /// `(XᵀX)⁻¹` in the original column order (for a rank-deficient design, the inverse of the
@@ -369,14 +347,8 @@ impl PivotedQr {
     /// # Panics
     /// Panics if `x0.len()` differs from the column count (a programming error).
     pub fn hat_quadratic(&self, x0: &[f64]) -> f64 {
-        assert_eq!(
-            x0.len(),
-            self.x.ncols(),
-            "PivotedQr::hat_quadratic: wrong row length"
-        );
-        let z: Vec<f64> = (0..self.rank)
-            .map(|k| x0[self.perm[k]] / self.scale[self.perm[k]])
-            .collect();
+        assert_eq!(x0.len(), self.x.ncols(), "PivotedQr::hat_quadratic: wrong row length");
+        let z: Vec<f64> = (0..self.rank).map(|k| x0[self.perm[k]] / self.scale[self.perm[k]]).collect();
         let v = self.solve_rt(&z);
         v.iter().map(|a| a * a).sum()
     }
@@ -521,11 +493,7 @@ pub fn norm2(v: &[f64]) -> f64 {
 /// have overflowed or underflowed.
 fn fast_norm2(v: &[f64]) -> f64 {
     let s = dot(v, v);
-    if s.is_finite() && s > 1e-280 {
-        s.sqrt()
-    } else {
-        norm2(v)
-    }
+    if s.is_finite() && s > 1e-280 { s.sqrt() } else { norm2(v) }
 }
 
 /// A dot product with four independent accumulators (so the compiler can use vector lanes).
@@ -638,12 +606,7 @@ pub fn dot_dd(a: &[f64], b: &[f64]) -> f64 {
 /// `Xβ` with every row accumulated in double-double arithmetic.
 pub fn mul_vec_dd(x: &Matrix, beta: &[f64]) -> Vec<f64> {
     let zero = vec![0.0; x.nrows()];
-    residual_dd(
-        x,
-        &zero,
-        &zero,
-        &beta.iter().map(|b| -b).collect::<Vec<f64>>(),
-    )
+    residual_dd(x, &zero, &zero, &beta.iter().map(|b| -b).collect::<Vec<f64>>())
 }
 
 /// A sum accumulated in double-double arithmetic (Ogita, Rump & Oishi's Sum2).

@@ -11,11 +11,7 @@ pub struct Matrix {
 impl Matrix {
     /// A matrix of zeros.
     pub fn zeros(nrows: usize, ncols: usize) -> Self {
-        Self {
-            nrows,
-            ncols,
-            data: vec![0.0; nrows * ncols],
-        }
+        Self { nrows, ncols, data: vec![0.0; nrows * ncols] }
     }
 
     /// The identity matrix of order `n`.
@@ -33,19 +29,12 @@ impl Matrix {
     /// Panics if the columns differ in length (a programming error, not a data error).
     pub fn from_columns(cols: &[Vec<f64>]) -> Self {
         let nrows = cols.first().map_or(0, Vec::len);
-        assert!(
-            cols.iter().all(|c| c.len() == nrows),
-            "Matrix::from_columns: columns differ in length"
-        );
+        assert!(cols.iter().all(|c| c.len() == nrows), "Matrix::from_columns: columns differ in length");
         let mut data = Vec::with_capacity(nrows * cols.len());
         for c in cols {
             data.extend_from_slice(c);
         }
-        Self {
-            nrows,
-            ncols: cols.len(),
-            data,
-        }
+        Self { nrows, ncols: cols.len(), data }
     }
 
     /// Builds a matrix from its rows; every row must have the same length.
@@ -55,10 +44,7 @@ impl Matrix {
     pub fn from_rows(rows: &[Vec<f64>]) -> Self {
         let nrows = rows.len();
         let ncols = rows.first().map_or(0, Vec::len);
-        assert!(
-            rows.iter().all(|r| r.len() == ncols),
-            "Matrix::from_rows: rows differ in length"
-        );
+        assert!(rows.iter().all(|r| r.len() == ncols), "Matrix::from_rows: rows differ in length");
         let mut m = Self::zeros(nrows, ncols);
         for (i, r) in rows.iter().enumerate() {
             for (j, &v) in r.iter().enumerate() {
@@ -73,11 +59,7 @@ impl Matrix {
     /// # Panics
     /// Panics if `data.len() != nrows * ncols`.
     pub fn from_column_major(nrows: usize, ncols: usize, data: Vec<f64>) -> Self {
-        assert_eq!(
-            data.len(),
-            nrows * ncols,
-            "Matrix::from_column_major: wrong data length"
-        );
+        assert_eq!(data.len(), nrows * ncols, "Matrix::from_column_major: wrong data length");
         Self { nrows, ncols, data }
     }
 
@@ -134,11 +116,7 @@ impl Matrix {
         for &j in cols {
             data.extend_from_slice(self.column(j));
         }
-        Matrix {
-            nrows: self.nrows,
-            ncols: cols.len(),
-            data,
-        }
+        Matrix { nrows: self.nrows, ncols: cols.len(), data }
     }
 
     /// A new matrix made of the given rows, in the given order.
@@ -148,11 +126,7 @@ impl Matrix {
             let col = self.column(j);
             data.extend(rows.iter().map(|&i| col[i]));
         }
-        Matrix {
-            nrows: rows.len(),
-            ncols: self.ncols,
-            data,
-        }
+        Matrix { nrows: rows.len(), ncols: self.ncols, data }
     }
 
     /// The transpose.
@@ -171,10 +145,7 @@ impl Matrix {
     /// # Panics
     /// Panics if the inner dimensions differ (a programming error).
     pub fn matmul(&self, other: &Matrix) -> Matrix {
-        assert_eq!(
-            self.ncols, other.nrows,
-            "Matrix::matmul: inner dimensions differ"
-        );
+        assert_eq!(self.ncols, other.nrows, "Matrix::matmul: inner dimensions differ");
         let mut out = Matrix::zeros(self.nrows, other.ncols);
         for j in 0..other.ncols {
             let oc = out.column_mut(j);
@@ -197,11 +168,7 @@ impl Matrix {
     /// # Panics
     /// Panics if `v.len() != self.ncols()` (a programming error).
     pub fn mul_vec(&self, v: &[f64]) -> Vec<f64> {
-        assert_eq!(
-            v.len(),
-            self.ncols,
-            "Matrix::mul_vec: length differs from the column count"
-        );
+        assert_eq!(v.len(), self.ncols, "Matrix::mul_vec: length differs from the column count");
         let mut out = vec![0.0; self.nrows];
         for (j, &b) in v.iter().enumerate() {
             if b == 0.0 {
@@ -222,11 +189,7 @@ impl Matrix {
         if self.ncols == 0 && self.data.is_empty() {
             self.nrows = col.len();
         }
-        assert_eq!(
-            col.len(),
-            self.nrows,
-            "Matrix::push_column: wrong column length"
-        );
+        assert_eq!(col.len(), self.nrows, "Matrix::push_column: wrong column length");
         self.data.extend_from_slice(col);
         self.ncols += 1;
     }

@@ -93,29 +93,17 @@ pub struct Predictor {
 impl Predictor {
     /// A predictor entered as is.
     pub fn new(column: impl Into<String>) -> Self {
-        Self {
-            column: column.into(),
-            transform: None,
-            reference_level: None,
-        }
+        Self { column: column.into(), transform: None, reference_level: None }
     }
 
     /// A predictor with a transform.
     pub fn transformed(column: impl Into<String>, transform: Transform) -> Self {
-        Self {
-            column: column.into(),
-            transform: Some(transform),
-            reference_level: None,
-        }
+        Self { column: column.into(), transform: Some(transform), reference_level: None }
     }
 
     /// A categorical predictor with a chosen reference level.
     pub fn categorical(column: impl Into<String>, reference_level: impl Into<String>) -> Self {
-        Self {
-            column: column.into(),
-            transform: None,
-            reference_level: Some(reference_level.into()),
-        }
+        Self { column: column.into(), transform: None, reference_level: Some(reference_level.into()) }
     }
 
     /// The label of the predictor's term: the column name, with its transform if any.

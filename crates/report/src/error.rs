@@ -37,9 +37,6 @@ impl ReportError {
 
     /// Builds a chart error for the named chart kind.
     pub(crate) fn chart(chart: &'static str, reason: impl Into<String>) -> Self {
-        Self::Chart {
-            chart,
-            reason: reason.into(),
-        }
+        Self::Chart { chart, reason: reason.into() }
     }
 }

@@ -33,20 +33,14 @@ pub const DEFAULT_PREDICTORS: [&str; 5] = [
 
 /// Reads the demo's column metadata, mapping its descriptive roles onto the store's roles.
 pub fn column_meta() -> Vec<ColumnMeta> {
-    let Ok(serde_json::Value::Array(items)) =
-        serde_json::from_str::<serde_json::Value>(COLUMNS_JSON)
-    else {
+    let Ok(serde_json::Value::Array(items)) = serde_json::from_str::<serde_json::Value>(COLUMNS_JSON) else {
         return Vec::new();
     };
     items
         .iter()
         .filter_map(|item| {
-            let text = |k: &str| {
-                item.get(k)
-                    .and_then(|v| v.as_str())
-                    .filter(|s| !s.is_empty())
-                    .map(str::to_owned)
-            };
+            let text =
+                |k: &str| item.get(k).and_then(|v| v.as_str()).filter(|s| !s.is_empty()).map(str::to_owned);
             let role = match text("role")?.as_str() {
                 "key" => ColumnRole::Key,
                 "count" => ColumnRole::Count,
@@ -60,10 +54,7 @@ pub fn column_meta() -> Vec<ColumnMeta> {
                 label: text("label"),
                 unit: text("unit"),
                 source: text("source"),
-                vintage: item
-                    .get("vintage")
-                    .and_then(|v| v.as_i64())
-                    .and_then(|v| i32::try_from(v).ok()),
+                vintage: item.get("vintage").and_then(|v| v.as_i64()).and_then(|v| i32::try_from(v).ok()),
                 role,
             })
         })
@@ -72,10 +63,7 @@ pub fn column_meta() -> Vec<ColumnMeta> {
 
 /// The district table as a draft dataset: imported, described, with the rate derived.
 pub fn larkmoor_draft() -> Result<Draft, StoreError> {
-    let options = ImportOptions {
-        key: Some(KEY.to_owned()),
-        ..ImportOptions::default()
-    };
+    let options = ImportOptions { key: Some(KEY.to_owned()), ..ImportOptions::default() };
     let staged = import_bytes(DISTRICTS_CSV, "larkmoor_districts.csv", &options)?;
     let mut draft = Draft::from_import(&staged)?;
     let metas = column_meta();
@@ -98,10 +86,7 @@ pub fn larkmoor_draft() -> Result<Draft, StoreError> {
 
 /// The budget table as a draft dataset keyed by district code.
 pub fn budgets_draft() -> Result<Draft, StoreError> {
-    let options = ImportOptions {
-        key: Some(KEY.to_owned()),
-        ..ImportOptions::default()
-    };
+    let options = ImportOptions { key: Some(KEY.to_owned()), ..ImportOptions::default() };
     let staged = import_bytes(BUDGETS_CSV, "larkmoor_budgets.csv", &options)?;
     Draft::from_import(&staged)
 }
@@ -116,10 +101,7 @@ pub fn larkmoor_table() -> Result<wardcast_engine::Table, StoreError> {
 ///
 /// A table with blocking problems (duplicate or blank keys) is refused with the reasons.
 pub fn table_from_file(path: &Path, key: &str) -> Result<wardcast_engine::Table, StoreError> {
-    let options = ImportOptions {
-        key: Some(key.to_owned()),
-        ..ImportOptions::default()
-    };
+    let options = ImportOptions { key: Some(key.to_owned()), ..ImportOptions::default() };
     let staged = import_file(path, &options)?;
     let draft = Draft::from_import(&staged)?;
     engine_table(draft.frame(), draft.key())

@@ -131,10 +131,7 @@ pub(crate) fn error_page(status: StatusCode, message: &str) -> Response {
         message = escape_html(message),
     );
     let mut response = (status, body).into_response();
-    response.headers_mut().insert(
-        header::CONTENT_TYPE,
-        HeaderValue::from_static("text/html; charset=utf-8"),
-    );
+    response.headers_mut().insert(header::CONTENT_TYPE, HeaderValue::from_static("text/html; charset=utf-8"));
     response
 }
 
@@ -157,8 +154,7 @@ impl<E: Into<ServerError>> From<E> for ApiError {
 impl IntoResponse for ApiError {
     fn into_response(self) -> Response {
         let status = self.0.status();
-        let body =
-            serde_json::json!({ "error": self.0.public_message(), "status": status.as_u16() });
+        let body = serde_json::json!({ "error": self.0.public_message(), "status": status.as_u16() });
         (status, axum::Json(body)).into_response()
     }
 }

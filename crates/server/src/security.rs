@@ -127,20 +127,12 @@ struct Share {
 impl SecurityConfig {
     /// Local use only: requests must name localhost, 127.0.0.1 or [::1] with this port.
     pub fn local(port: u16) -> Self {
-        SecurityConfig {
-            port,
-            share: None,
-            limits: Limits::default(),
-        }
+        SecurityConfig { port, share: None, limits: Limits::default() }
     }
 
     /// Sharing on the local network at `address`, admitting holders of `token`.
     pub fn shared(port: u16, address: IpAddr, token: Token) -> Self {
-        SecurityConfig {
-            port,
-            share: Some(Share { address, token }),
-            limits: Limits::default(),
-        }
+        SecurityConfig { port, share: Some(Share { address, token }), limits: Limits::default() }
     }
 
     /// Replaces the size and time limits.
@@ -182,11 +174,8 @@ impl SecurityConfig {
 
     /// Every `Host` header value accepted. Port 80 may also be written without the port.
     pub fn allowed_hosts(&self) -> Vec<String> {
-        let mut names: Vec<(String, bool)> = vec![
-            ("localhost".into(), false),
-            ("127.0.0.1".into(), false),
-            ("::1".into(), true),
-        ];
+        let mut names: Vec<(String, bool)> =
+            vec![("localhost".into(), false), ("127.0.0.1".into(), false), ("::1".into(), true)];
         if let Some(share) = &self.share {
             names.push((share.address.to_string(), share.address.is_ipv6()));
         }
@@ -213,11 +202,7 @@ impl SecurityConfig {
 }
 
 fn host_with_port(name: &str, v6: bool, port: u16) -> String {
-    if v6 {
-        format!("[{name}]:{port}")
-    } else {
-        format!("{name}:{port}")
-    }
+    if v6 { format!("[{name}]:{port}") } else { format!("{name}:{port}") }
 }
 
 /// Live security state shared by the guard and the join handlers: the config plus the sessions
@@ -231,10 +216,7 @@ pub struct Security {
 impl Security {
     /// Wraps a config with an empty session list.
     pub fn new(config: SecurityConfig) -> Self {
-        Security {
-            config: Arc::new(config),
-            sessions: Arc::new(Mutex::new(VecDeque::new())),
-        }
+        Security { config: Arc::new(config), sessions: Arc::new(Mutex::new(VecDeque::new())) }
     }
 
     /// The configuration.
@@ -250,10 +232,8 @@ impl Security {
     /// Starts a session and returns its secret value for the cookie.
     pub fn open_session(&self) -> Result<Token, ServerError> {
         let session = Token::generate()?;
-        let mut sessions = self
-            .sessions
-            .lock()
-            .map_err(|_| ServerError::Internal("session list poisoned".into()))?;
+        let mut sessions =
+            self.sessions.lock().map_err(|_| ServerError::Internal("session list poisoned".into()))?;
         if sessions.len() >= MAX_SESSIONS {
             sessions.pop_front();
         }
@@ -279,10 +259,7 @@ impl Security {
 
     /// The `Set-Cookie` value for a new session: HttpOnly, SameSite=Strict, whole site.
     pub fn session_cookie_header(session: &Token) -> Result<HeaderValue, ServerError> {
-        let value = format!(
-            "{SESSION_COOKIE}={}; Path=/; HttpOnly; SameSite=Strict",
-            session.to_hex()
-        );
+        let value = format!("{SESSION_COOKIE}={}; Path=/; HttpOnly; SameSite=Strict", session.to_hex());
         HeaderValue::from_str(&value).map_err(|e| ServerError::Internal(e.to_string()))
     }
 }
@@ -323,9 +300,7 @@ pub fn cross_site_check(config: &SecurityConfig, headers: &HeaderMap) -> Result<
     }
     if let Some(origin) = headers.get(header::ORIGIN) {
         let origin = origin.to_str().unwrap_or("").trim().to_ascii_lowercase();
-        let allowed = origin
-            .strip_prefix("http://")
-            .is_some_and(|host| config.host_allowed(host));
+        let allowed = origin.strip_prefix("http://").is_some_and(|host| config.host_allowed(host));
         if !allowed {
             return Err("This request came from a page on another origin, so it was refused.");
         }
@@ -343,11 +318,7 @@ fn refuse(message: &str) -> Response {
 }
 
 /// The guard middleware: Host allow-list, cross-site check and (when sharing) the session check.
-pub async fn guard(
-    State(security): State<Security>,
-    request: Request<Body>,
-    next: Next,
-) -> Response {
+pub async fn guard(State(security): State<Security>, request: Request<Body>, next: Next) -> Response {
     let config = security.config();
     let host_ok = request_host(&request).is_some_and(|h| config.host_allowed(&h));
     if !host_ok {
@@ -378,15 +349,10 @@ pub async fn guard(
 /// address it would use to reach a documentation-range address (RFC 5737), which is the
 /// address of the default route's interface.
 pub fn detect_lan_address() -> Result<IpAddr, ServerError> {
-    let socket = std::net::UdpSocket::bind(("0.0.0.0", 0))
-        .map_err(|e| ServerError::NoLanAddress(e.to_string()))?;
-    socket
-        .connect(("192.0.2.1", 9))
-        .map_err(|e| ServerError::NoLanAddress(e.to_string()))?;
-    let address = socket
-        .local_addr()
-        .map_err(|e| ServerError::NoLanAddress(e.to_string()))?
-        .ip();
+    let socket =
+        std::net::UdpSocket::bind(("0.0.0.0", 0)).map_err(|e| ServerError::NoLanAddress(e.to_string()))?;
+    socket.connect(("192.0.2.1", 9)).map_err(|e| ServerError::NoLanAddress(e.to_string()))?;
+    let address = socket.local_addr().map_err(|e| ServerError::NoLanAddress(e.to_string()))?.ip();
     if address.is_unspecified() || address.is_loopback() {
         return Err(ServerError::NoLanAddress(
             "this computer does not seem to be connected to a network".into(),

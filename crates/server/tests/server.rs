@@ -22,8 +22,8 @@ use wardcast::web::{Analysis, AppState, ColumnInfo, Glossary, router};
 use wardcast_contract::SCHEMA_VERSION;
 use wardcast_contract::cautions::standing_cautions;
 use wardcast_contract::fit::{
-    CoefficientDoc, DroppedRowDoc, FitDocument, Interval, LIKELIHOOD_CONVENTION, Likelihood,
-    OverallF, SumsOfSquares, TermTest,
+    CoefficientDoc, DroppedRowDoc, FitDocument, Interval, LIKELIHOOD_CONVENTION, Likelihood, OverallF,
+    SumsOfSquares, TermTest,
 };
 use wardcast_contract::numbers::Number;
 use wardcast_contract::spec::{ModelSpec, PredictorSpec, TransformSpec};
@@ -39,37 +39,19 @@ pub const NASTY: &str = "<script>\"'&";
 /// How that name must appear in HTML.
 pub const NASTY_ESCAPED: &str = "&#60;script&#62;&#34;&#39;&#38;";
 
-fn coefficient(
-    term: &str,
-    estimate: f64,
-    se: f64,
-    t: f64,
-    p: f64,
-    low: f64,
-    high: f64,
-) -> CoefficientDoc {
+fn coefficient(term: &str, estimate: f64, se: f64, t: f64, p: f64, low: f64, high: f64) -> CoefficientDoc {
     CoefficientDoc {
         term: term.into(),
         estimate,
         std_error: se,
         t_value: Number::Finite(t),
         p_value: Number::Finite(p),
-        interval: Interval {
-            level: 0.95,
-            low,
-            high,
-        },
+        interval: Interval { level: 0.95, low, high },
     }
 }
 
 fn test_row(term: &str, df: usize, ss: f64, f: f64, p: f64) -> TermTest {
-    TermTest {
-        term: term.into(),
-        df,
-        sum_sq: ss,
-        f: Number::Finite(f),
-        p_value: Number::Finite(p),
-    }
+    TermTest { term: term.into(), df, sum_sq: ss, f: Number::Finite(f), p_value: Number::Finite(p) }
 }
 
 /// A fit document shaped like the demo's: a plain predictor, a logged one, a categorical one
@@ -87,11 +69,7 @@ pub fn sample_fit(odd_column: &str, dropped_key: &str) -> FitDocument {
         transform: None,
         reference_level: Some("residential".into()),
     });
-    spec.predictors.push(PredictorSpec {
-        column: odd_column.into(),
-        transform: None,
-        reference_level: None,
-    });
+    spec.predictors.push(PredictorSpec { column: odd_column.into(), transform: None, reference_level: None });
     FitDocument {
         schema_version: SCHEMA_VERSION.into(),
         kind: "fit".into(),
@@ -158,19 +136,10 @@ pub fn sample_glossary(odd_column: &str) -> Glossary {
     Glossary::new("districts")
         .with_column(
             "assault_rate",
-            ColumnInfo::new(
-                "assault rate",
-                Some("assault incidents per 10,000 residents"),
-            ),
+            ColumnInfo::new("assault rate", Some("assault incidents per 10,000 residents")),
         )
-        .with_column(
-            "unemployment_pct",
-            ColumnInfo::new("Unemployment", Some("% of labour force")),
-        )
-        .with_column(
-            "vacancy_pct",
-            ColumnInfo::new("Housing vacancy", Some("% of dwellings")),
-        )
+        .with_column("unemployment_pct", ColumnInfo::new("Unemployment", Some("% of labour force")))
+        .with_column("vacancy_pct", ColumnInfo::new("Housing vacancy", Some("% of dwellings")))
         .with_column("district_type", ColumnInfo::new("District type", None))
         .with_column(odd_column, ColumnInfo::new(odd_column, None))
 }
@@ -201,44 +170,26 @@ pub fn test_token() -> Token {
 
 /// The sample workspace shared on [`LAN`] with [`test_token`].
 pub fn shared_app() -> Router {
-    router(
-        sample_state(),
-        SecurityConfig::shared(PORT, LAN, test_token()),
-    )
+    router(sample_state(), SecurityConfig::shared(PORT, LAN, test_token()))
 }
 
 /// A GET with the local Host header.
 pub fn get(path: &str) -> Request<Body> {
-    Request::get(path)
-        .header(header::HOST, HOST)
-        .body(Body::empty())
-        .expect("request")
+    Request::get(path).header(header::HOST, HOST).body(Body::empty()).expect("request")
 }
 
 /// Sends one request through the router.
 pub async fn send(app: &Router, request: Request<Body>) -> Response<Body> {
-    app.clone()
-        .oneshot(request)
-        .await
-        .expect("the router never fails")
+    app.clone().oneshot(request).await.expect("the router never fails")
 }
 
 /// Collects a response body as text.
 pub async fn text(response: Response<Body>) -> String {
-    let bytes = response
-        .into_body()
-        .collect()
-        .await
-        .expect("body")
-        .to_bytes();
+    let bytes = response.into_body().collect().await.expect("body").to_bytes();
     String::from_utf8(bytes.to_vec()).expect("utf-8 body")
 }
 
 /// A header's value as text, or "" when absent.
 pub fn header_of(response: &Response<Body>, name: &str) -> String {
-    response
-        .headers()
-        .get(name)
-        .map(|v| v.to_str().expect("ascii header").to_owned())
-        .unwrap_or_default()
+    response.headers().get(name).map(|v| v.to_str().expect("ascii header").to_owned()).unwrap_or_default()
 }

@@ -28,12 +28,7 @@ pub enum Delimiter {
 
 impl Delimiter {
     /// All delimiters, in the order ties are broken.
-    pub const ALL: [Delimiter; 4] = [
-        Delimiter::Comma,
-        Delimiter::Semicolon,
-        Delimiter::Tab,
-        Delimiter::Pipe,
-    ];
+    pub const ALL: [Delimiter; 4] = [Delimiter::Comma, Delimiter::Semicolon, Delimiter::Tab, Delimiter::Pipe];
 
     /// The byte.
     pub fn byte(self) -> u8 {
@@ -122,11 +117,7 @@ fn parse_record(
                 }
                 break;
             }
-            spans.push(Span {
-                start,
-                end: i,
-                escaped,
-            });
+            spans.push(Span { start, end: i, escaped });
             i += 1;
             while i < n && b[i] == b' ' && delim != b' ' {
                 i += 1;
@@ -138,11 +129,7 @@ fn parse_record(
                 c if c == delim => i += 1,
                 b'\n' => return Ok(RecordEnd::At(i + 1)),
                 b'\r' => {
-                    return Ok(RecordEnd::At(if i + 1 < n && b[i + 1] == b'\n' {
-                        i + 2
-                    } else {
-                        i + 1
-                    }));
+                    return Ok(RecordEnd::At(if i + 1 < n && b[i + 1] == b'\n' { i + 2 } else { i + 1 }));
                 }
                 _ => return Err(ParseFault::AfterQuote { at: i }),
             }
@@ -155,11 +142,7 @@ fn parse_record(
                 }
                 i += 1;
             }
-            spans.push(Span {
-                start,
-                end: i,
-                escaped: false,
-            });
+            spans.push(Span { start, end: i, escaped: false });
             if i >= n {
                 return Ok(RecordEnd::At(n));
             }
@@ -177,12 +160,8 @@ fn parse_record(
 
 fn fault_error(text: &str, fault: ParseFault) -> StoreError {
     match fault {
-        ParseFault::Unclosed { open } => StoreError::UnclosedQuote {
-            line: line_of(text.as_bytes(), open),
-        },
-        ParseFault::AfterQuote { at } => StoreError::TextAfterQuote {
-            line: line_of(text.as_bytes(), at),
-        },
+        ParseFault::Unclosed { open } => StoreError::UnclosedQuote { line: line_of(text.as_bytes(), open) },
+        ParseFault::AfterQuote { at } => StoreError::TextAfterQuote { line: line_of(text.as_bytes(), at) },
     }
 }
 
@@ -226,11 +205,7 @@ fn sample_counts(text: &str, delim: u8) -> (Vec<(usize, usize)>, Option<ParseFau
 }
 
 /// Sniffs the delimiter and the decimal separator.
-pub(crate) fn sniff(
-    text: &str,
-    delimiter: Option<Delimiter>,
-    decimal: DecimalChoice,
-) -> Result<Layout> {
+pub(crate) fn sniff(text: &str, delimiter: Option<Delimiter>, decimal: DecimalChoice) -> Result<Layout> {
     let (delimiter, delimiter_note) = match delimiter {
         Some(d) => (d, "chosen".to_owned()),
         None => {
@@ -297,13 +272,9 @@ pub(crate) fn sniff(
                 Some((d, _)) if plausible.is_some_and(|p| p.0 == d) => {
                     (d, detail.clone().unwrap_or_default())
                 }
-                Some((d, n)) => (
-                    d,
-                    format!(
-                        "sniffed: every sampled line has {n} fields with a {}",
-                        d.name()
-                    ),
-                ),
+                Some((d, n)) => {
+                    (d, format!("sniffed: every sampled line has {n} fields with a {}", d.name()))
+                }
                 None if text.trim().is_empty() => return Err(StoreError::EmptyFile),
                 None if fault.is_some() && detail.is_none() && weak_detail.is_none() => {
                     return Err(fault.map_or(StoreError::NoDelimiter, |f| fault_error(text, f)));
@@ -311,9 +282,7 @@ pub(crate) fn sniff(
                 None if !any_split => return Err(StoreError::NoDelimiter),
                 None => {
                     return Err(StoreError::UnclearDelimiter {
-                        detail: detail
-                            .or(weak_detail)
-                            .unwrap_or_else(|| "no consistent split".to_owned()),
+                        detail: detail.or(weak_detail).unwrap_or_else(|| "no consistent split".to_owned()),
                     });
                 }
             }
@@ -347,22 +316,14 @@ pub(crate) fn sniff(
                         ),
                     )
                 } else {
-                    (
-                        false,
-                        "decimal point: no sampled number uses a decimal comma".to_owned(),
-                    )
+                    (false, "decimal point: no sampled number uses a decimal comma".to_owned())
                 }
             } else {
                 (false, "decimal point".to_owned())
             }
         }
     };
-    Ok(Layout {
-        delimiter,
-        delimiter_note,
-        decimal_comma,
-        decimal_note,
-    })
+    Ok(Layout { delimiter, delimiter_note, decimal_comma, decimal_note })
 }
 
 /// Counts sampled cells written like `12,5` and like `12.5`.
@@ -439,10 +400,7 @@ impl<'a> CsvSource<'a> {
             pos = next;
         };
         if spans.len() > max_columns {
-            return Err(StoreError::TooManyColumns {
-                found: spans.len(),
-                limit: max_columns,
-            });
+            return Err(StoreError::TooManyColumns { found: spans.len(), limit: max_columns });
         }
         let mut header = Vec::with_capacity(spans.len());
         for (i, s) in spans.iter().enumerate() {
@@ -484,23 +442,13 @@ impl<'a> CsvSource<'a> {
             }
         }
         bounds.push(b.len());
-        let parts = bounds
-            .windows(2)
-            .map(|w| (w[0], w[1]))
-            .filter(|(a, z)| a < z)
-            .collect();
-        Ok(Self {
-            text,
-            delim,
-            header,
-            parts,
-        })
+        let parts = bounds.windows(2).map(|w| (w[0], w[1])).filter(|(a, z)| a < z).collect();
+        Ok(Self { text, delim, header, parts })
     }
 
     /// Collapses the parts into one (used when a split did not fall on a record boundary).
     pub fn single_part(&mut self) {
-        if let (Some(first), Some(last)) = (self.parts.first().copied(), self.parts.last().copied())
-        {
+        if let (Some(first), Some(last)) = (self.parts.first().copied(), self.parts.last().copied()) {
             self.parts = vec![(first.0, last.1)];
         }
     }
@@ -508,11 +456,7 @@ impl<'a> CsvSource<'a> {
 
 fn span_text<'t>(text: &'t str, s: &Span) -> Cow<'t, str> {
     let raw = text.get(s.start..s.end).unwrap_or("");
-    if s.escaped {
-        Cow::Owned(raw.replace("\"\"", "\""))
-    } else {
-        Cow::Borrowed(raw)
-    }
+    if s.escaped { Cow::Owned(raw.replace("\"\"", "\"")) } else { Cow::Borrowed(raw) }
 }
 
 impl RecordSource for CsvSource<'_> {
@@ -538,12 +482,7 @@ impl RecordSource for CsvSource<'_> {
         while pos < end {
             let RecordEnd::At(next) = parse_record(b, pos, self.delim, &mut spans)
                 .map_err(|fault| fault_error(self.text, fault))?;
-            let row = Row::Csv {
-                text: self.text,
-                spans: &spans,
-                offset: pos,
-                blank: is_blank(&spans),
-            };
+            let row = Row::Csv { text: self.text, spans: &spans, offset: pos, blank: is_blank(&spans) };
             f(&row)?;
             pos = next;
         }

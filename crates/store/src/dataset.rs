@@ -5,8 +5,8 @@ use std::collections::{HashMap, HashSet};
 use polars::prelude::DataFrame;
 use wardcast_contract::SCHEMA_VERSION;
 use wardcast_contract::dataset::{
-    ColumnMeta, ColumnRole, ColumnType, DatasetManifest, Derivation, DerivedColumn, DroppedRow,
-    Exclusion, JoinKind, JoinReport, ManifestColumn, Origin,
+    ColumnMeta, ColumnRole, ColumnType, DatasetManifest, Derivation, DerivedColumn, DroppedRow, Exclusion,
+    JoinKind, JoinReport, ManifestColumn, Origin,
 };
 
 use crate::derive::{self, DeriveSummary};
@@ -76,9 +76,7 @@ impl Dataset {
             derived: self.manifest.derived.clone(),
             exclusions: self.manifest.exclusions.clone(),
             dropped_rows: self.manifest.dropped_rows.clone(),
-            origin: Origin::Edit {
-                change: format!("edited from {}", self.manifest.version_id),
-            },
+            origin: Origin::Edit { change: format!("edited from {}", self.manifest.version_id) },
             keys_verified: true,
         }
     }
@@ -99,9 +97,7 @@ pub fn engine_table(frame: &DataFrame, key: &str) -> Result<wardcast_engine::Tab
             None => match frame::text_values(frame, name)? {
                 Some(values) => wardcast_engine::Column::text(name, values),
                 None => {
-                    return Err(StoreError::Frame(format!(
-                        "column {name:?} has an unsupported type"
-                    )));
+                    return Err(StoreError::Frame(format!("column {name:?} has an unsupported type")));
                 }
             },
         };
@@ -129,13 +125,11 @@ impl Draft {
     /// A draft from an import; refused while blocking problems remain.
     pub fn from_import(staged: &StagedImport) -> Result<Self> {
         if !staged.can_save() {
-            return Err(StoreError::NotSavable {
-                reasons: staged.blocking_reasons().join("; "),
-            });
+            return Err(StoreError::NotSavable { reasons: staged.blocking_reasons().join("; ") });
         }
-        let key = staged.key().ok_or_else(|| StoreError::NotSavable {
-            reasons: "no key column was chosen".into(),
-        })?;
+        let key = staged
+            .key()
+            .ok_or_else(|| StoreError::NotSavable { reasons: "no key column was chosen".into() })?;
         Ok(Self {
             frame: staged.frame().clone(),
             key: key.to_owned(),
@@ -143,9 +137,7 @@ impl Draft {
             derived: Vec::new(),
             exclusions: Vec::new(),
             dropped_rows: staged.report().dropped_rows.clone(),
-            origin: Origin::Import {
-                source: staged.report().source.clone(),
-            },
+            origin: Origin::Import { source: staged.report().source.clone() },
             keys_verified: true,
         })
     }
@@ -189,20 +181,14 @@ impl Draft {
             .columns
             .iter_mut()
             .find(|c| c.meta.column == meta.column)
-            .ok_or_else(|| StoreError::UnknownColumn {
-                name: meta.column.clone(),
-            })?;
+            .ok_or_else(|| StoreError::UnknownColumn { name: meta.column.clone() })?;
         let name = &meta.column;
         if (meta.role == ColumnRole::Key) != (*name == key) {
             return Err(StoreError::BadChoice {
-                reason: format!(
-                    "only the key column {key:?} has the key role; {name:?} cannot change that"
-                ),
+                reason: format!("only the key column {key:?} has the key role; {name:?} cannot change that"),
             });
         }
-        if col.column_type == ColumnType::Text
-            && !matches!(meta.role, ColumnRole::Group | ColumnRole::Key)
-        {
+        if col.column_type == ColumnType::Text && !matches!(meta.role, ColumnRole::Group | ColumnRole::Key) {
             return Err(StoreError::BadChoice {
                 reason: format!(
                     "column {name:?} holds text, so it can only be a group; it cannot be a {}",
@@ -230,9 +216,7 @@ impl Draft {
                 });
             }
             if !seen.insert(e.key.as_str()) {
-                return Err(StoreError::BadChoice {
-                    reason: format!("{:?} is excluded twice", e.key),
-                });
+                return Err(StoreError::BadChoice { reason: format!("{:?} is excluded twice", e.key) });
             }
         }
         self.exclusions = exclusions;
@@ -263,15 +247,9 @@ impl Draft {
         let before = self.derived.len();
         self.derived.retain(|d| d.name != name);
         if self.derived.len() == before {
-            return Err(StoreError::UnknownColumn {
-                name: name.to_owned(),
-            });
+            return Err(StoreError::UnknownColumn { name: name.to_owned() });
         }
-        if let Some(d) = self
-            .derived
-            .iter()
-            .find(|d| d.derivation.inputs().contains(&name))
-        {
+        if let Some(d) = self.derived.iter().find(|d| d.derivation.inputs().contains(&name)) {
             return Err(StoreError::Derive {
                 name: d.name.clone(),
                 reason: format!("it is computed from {name:?}"),
@@ -291,10 +269,7 @@ impl Draft {
                 Derivation::RatePer { .. } => ColumnRole::Rate,
                 _ => ColumnRole::Indicator,
             };
-            let mut meta = d
-                .meta
-                .clone()
-                .unwrap_or_else(|| ColumnMeta::new(d.name.clone(), role));
+            let mut meta = d.meta.clone().unwrap_or_else(|| ColumnMeta::new(d.name.clone(), role));
             meta.column = d.name.clone();
             if meta.role == ColumnRole::Key || meta.role == ColumnRole::Group {
                 meta.role = role;
@@ -306,10 +281,7 @@ impl Draft {
                         c.meta = meta;
                     }
                 }
-                None => self.columns.push(ManifestColumn {
-                    column_type: ColumnType::Decimal,
-                    meta,
-                }),
+                None => self.columns.push(ManifestColumn { column_type: ColumnType::Decimal, meta }),
             }
         }
         Ok(summaries)
@@ -320,21 +292,11 @@ impl Draft {
         if !self.keys_verified {
             frame::check_keys(&self.frame, &self.key)?;
         }
-        let names: Vec<&str> = self
-            .frame
-            .columns()
-            .iter()
-            .map(|c| c.name().as_str())
-            .collect();
+        let names: Vec<&str> = self.frame.columns().iter().map(|c| c.name().as_str()).collect();
         if names.len() != self.columns.len()
-            || names
-                .iter()
-                .zip(&self.columns)
-                .any(|(n, c)| *n != c.meta.column)
+            || names.iter().zip(&self.columns).any(|(n, c)| *n != c.meta.column)
         {
-            return Err(StoreError::Frame(
-                "the column list does not match the table".into(),
-            ));
+            return Err(StoreError::Frame("the column list does not match the table".into()));
         }
         for (col, m) in self.frame.columns().iter().zip(&self.columns) {
             if frame::column_type(col) != Some(m.column_type) {
@@ -354,29 +316,17 @@ impl Draft {
         for col in &mut self.columns {
             if let Some(old) = previous.column(&col.meta.column) {
                 let role = col.meta.role;
-                col.meta = ColumnMeta {
-                    role,
-                    ..old.meta.clone()
-                };
+                col.meta = ColumnMeta { role, ..old.meta.clone() };
             }
         }
-        let present: HashSet<&str> = self
-            .columns
-            .iter()
-            .map(|c| c.meta.column.as_str())
-            .collect();
+        let present: HashSet<&str> = self.columns.iter().map(|c| c.meta.column.as_str()).collect();
         for d in &previous.derived {
             if !present.contains(d.name.as_str()) {
                 self.derived.push(d.clone());
             }
         }
         let keys: HashSet<String> = frame::keys(&self.frame, &self.key)?.into_iter().collect();
-        self.exclusions = previous
-            .exclusions
-            .iter()
-            .filter(|e| keys.contains(&e.key))
-            .cloned()
-            .collect();
+        self.exclusions = previous.exclusions.iter().filter(|e| keys.contains(&e.key)).cloned().collect();
         Ok(())
     }
 }
@@ -468,9 +418,9 @@ pub struct Joined {
 }
 
 fn key_values<T: Keyed + ?Sized>(t: &T) -> Result<(String, Vec<Option<String>>)> {
-    let key = t.key_column().ok_or_else(|| StoreError::Join {
-        reason: format!("{} has no key column", t.label()),
-    })?;
+    let key = t
+        .key_column()
+        .ok_or_else(|| StoreError::Join { reason: format!("{} has no key column", t.label()) })?;
     let values = frame::text_values(t.table(), key)?.ok_or_else(|| StoreError::Join {
         reason: format!("the key column {key:?} of {} is not text", t.label()),
     })?;
@@ -499,11 +449,7 @@ fn repeated(values: &[Option<String>]) -> Vec<String> {
 /// A left join keeps every left row (right values missing where no key matches); an inner
 /// join keeps the rows whose key is on both sides. Rows keep the left table's order. A
 /// right column whose name the left already uses gets the suffix `_<right label>`.
-pub fn join<L: Keyed + ?Sized, R: Keyed + ?Sized>(
-    left: &L,
-    right: &R,
-    kind: JoinKind,
-) -> Result<Joined> {
+pub fn join<L: Keyed + ?Sized, R: Keyed + ?Sized>(left: &L, right: &R, kind: JoinKind) -> Result<Joined> {
     let (left_key, lv) = key_values(left)?;
     let (right_key, rv) = key_values(right)?;
     let mut right_index: HashMap<&str, usize> = HashMap::with_capacity(rv.len());
@@ -527,20 +473,13 @@ pub fn join<L: Keyed + ?Sized, R: Keyed + ?Sized>(
         .filter(|k| !left_set.contains(k.as_str()) && seen.insert(k.as_str()))
         .cloned()
         .collect();
-    let matched = left_set
-        .iter()
-        .filter(|k| right_index.contains_key(*k))
-        .count();
+    let matched = left_set.iter().filter(|k| right_index.contains_key(*k)).count();
     let duplicates_left = repeated(&lv);
     let duplicates_right = repeated(&rv);
 
     // Output columns and renames.
     let right_tag: String = crate::store::slug(&right.label()).replace('-', "_");
-    let mut used: HashSet<String> = left
-        .column_list()
-        .iter()
-        .map(|c| c.meta.column.clone())
-        .collect();
+    let mut used: HashSet<String> = left.column_list().iter().map(|c| c.meta.column.clone()).collect();
     let mut renamed = Vec::new();
     let mut right_names = Vec::new();
     for c in right.column_list() {
@@ -579,16 +518,11 @@ pub fn join<L: Keyed + ?Sized, R: Keyed + ?Sized>(
         renamed,
     };
     if !report.duplicates_left.is_empty() || !report.duplicates_right.is_empty() {
-        return Ok(Joined {
-            report,
-            draft: None,
-        });
+        return Ok(Joined { report, draft: None });
     }
 
     if lv.iter().any(Option::is_none) {
-        return Err(StoreError::Join {
-            reason: format!("{} has rows without a key", report.left),
-        });
+        return Err(StoreError::Join { reason: format!("{} has rows without a key", report.left) });
     }
 
     // Row selection.
@@ -609,24 +543,16 @@ pub fn join<L: Keyed + ?Sized, R: Keyed + ?Sized>(
         let col = left
             .table()
             .column(&c.meta.column)
-            .map_err(|_| StoreError::UnknownColumn {
-                name: c.meta.column.clone(),
-            })?;
+            .map_err(|_| StoreError::UnknownColumn { name: c.meta.column.clone() })?;
         cols.push(frame::gather(col, &left_idx, &c.meta.column)?);
         columns.push(c.clone());
     }
-    let rename: HashMap<&str, &str> = report
-        .renamed
-        .iter()
-        .map(|(a, b)| (a.as_str(), b.as_str()))
-        .collect();
+    let rename: HashMap<&str, &str> = report.renamed.iter().map(|(a, b)| (a.as_str(), b.as_str())).collect();
     for (c, out) in &right_names {
         let col = right
             .table()
             .column(&c.meta.column)
-            .map_err(|_| StoreError::UnknownColumn {
-                name: c.meta.column.clone(),
-            })?;
+            .map_err(|_| StoreError::UnknownColumn { name: c.meta.column.clone() })?;
         cols.push(frame::gather(col, &right_idx, out)?);
         let mut mc = c.clone();
         mc.meta.column = out.clone();
@@ -644,9 +570,7 @@ pub fn join<L: Keyed + ?Sized, R: Keyed + ?Sized>(
         };
         map(&mut d.name);
         match &mut d.derivation {
-            Derivation::RatePer {
-                count, population, ..
-            } => {
+            Derivation::RatePer { count, population, .. } => {
                 map(count);
                 map(population);
             }
@@ -658,10 +582,7 @@ pub fn join<L: Keyed + ?Sized, R: Keyed + ?Sized>(
                 map(left);
                 map(right);
             }
-            Derivation::Ratio {
-                numerator,
-                denominator,
-            } => {
+            Derivation::Ratio { numerator, denominator } => {
                 map(numerator);
                 map(denominator);
             }
@@ -671,17 +592,9 @@ pub fn join<L: Keyed + ?Sized, R: Keyed + ?Sized>(
         }
         derived.push(d);
     }
-    let kept: HashSet<&str> = left_idx
-        .iter()
-        .flatten()
-        .filter_map(|&i| lv[i].as_deref())
-        .collect();
-    let exclusions = left
-        .exclusion_list()
-        .iter()
-        .filter(|e| kept.contains(e.key.as_str()))
-        .cloned()
-        .collect();
+    let kept: HashSet<&str> = left_idx.iter().flatten().filter_map(|&i| lv[i].as_deref()).collect();
+    let exclusions =
+        left.exclusion_list().iter().filter(|e| kept.contains(e.key.as_str())).cloned().collect();
     let draft = Draft {
         frame,
         key: left_key,
@@ -689,16 +602,9 @@ pub fn join<L: Keyed + ?Sized, R: Keyed + ?Sized>(
         derived,
         exclusions,
         dropped_rows: Vec::new(),
-        origin: Origin::Join {
-            left: report.left.clone(),
-            right: report.right.clone(),
-            join: kind,
-        },
+        origin: Origin::Join { left: report.left.clone(), right: report.right.clone(), join: kind },
         // Left keys are distinct (no duplicates were reported) and present (checked above).
         keys_verified: true,
     };
-    Ok(Joined {
-        report,
-        draft: Some(draft),
-    })
+    Ok(Joined { report, draft: Some(draft) })
 }

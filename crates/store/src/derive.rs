@@ -23,23 +23,15 @@ pub struct DeriveSummary {
 }
 
 /// Computes one derived column's values from the frame.
-pub fn compute(
-    frame: &DataFrame,
-    spec: &DerivedColumn,
-) -> Result<(Vec<Option<f64>>, DeriveSummary)> {
-    let bad = |reason: String| StoreError::Derive {
-        name: spec.name.clone(),
-        reason,
-    };
+pub fn compute(frame: &DataFrame, spec: &DerivedColumn) -> Result<(Vec<Option<f64>>, DeriveSummary)> {
+    let bad = |reason: String| StoreError::Derive { name: spec.name.clone(), reason };
     if spec.name.trim().is_empty() {
         return Err(bad("the new column needs a name".into()));
     }
     if let Derivation::RatePer { per, .. } = &spec.derivation
         && !(per.is_finite() && *per > 0.0)
     {
-        return Err(bad(format!(
-            "the base of a rate must be a positive number, not {per}"
-        )));
+        return Err(bad(format!("the base of a rate must be a positive number, not {per}")));
     }
     let [a, b] = spec.derivation.inputs();
     let read = |name: &str| -> Result<Vec<Option<f64>>> {
@@ -49,20 +41,14 @@ pub fn compute(
         match f64_values(frame, name) {
             Ok(Some(v)) => Ok(v),
             Ok(None) => Err(bad(format!("column {name:?} holds text, not numbers"))),
-            Err(StoreError::UnknownColumn { .. }) => {
-                Err(bad(format!("there is no column named {name:?}")))
-            }
+            Err(StoreError::UnknownColumn { .. }) => Err(bad(format!("there is no column named {name:?}"))),
             Err(e) => Err(e),
         }
     };
     let xs = read(a)?;
     let ys = read(b)?;
-    let mut summary = DeriveSummary {
-        name: spec.name.clone(),
-        computed: 0,
-        missing_inputs: 0,
-        zero_denominators: 0,
-    };
+    let mut summary =
+        DeriveSummary { name: spec.name.clone(), computed: 0, missing_inputs: 0, zero_denominators: 0 };
     let mut out = Vec::with_capacity(xs.len());
     for (x, y) in xs.iter().zip(&ys) {
         let (Some(x), Some(y)) = (*x, *y) else {

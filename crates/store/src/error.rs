@@ -110,9 +110,7 @@ pub enum StoreError {
         second: usize,
     },
     /// No delimiter splits the lines.
-    #[error(
-        "no field delimiter found: no line contains a comma, semicolon, tab or pipe outside quotes"
-    )]
+    #[error("no field delimiter found: no line contains a comma, semicolon, tab or pipe outside quotes")]
     NoDelimiter,
     /// Several delimiters appear but none splits every line alike.
     #[error(
@@ -154,9 +152,7 @@ pub enum StoreError {
 
     // ---- Workbooks ----
     /// Too many entries in the workbook's zip container.
-    #[error(
-        "the workbook holds {entries} packed files, more than the {limit} allowed; it was not opened"
-    )]
+    #[error("the workbook holds {entries} packed files, more than the {limit} allowed; it was not opened")]
     ZipTooManyEntries {
         /// Entries found.
         entries: usize,
@@ -300,16 +296,8 @@ impl From<polars::prelude::PolarsError> for StoreError {
 
 impl StoreError {
     /// Builds an I/O error for a path.
-    pub(crate) fn io(
-        action: &'static str,
-        path: impl Into<PathBuf>,
-        source: std::io::Error,
-    ) -> Self {
-        StoreError::Io {
-            action,
-            path: path.into(),
-            source,
-        }
+    pub(crate) fn io(action: &'static str, path: impl Into<PathBuf>, source: std::io::Error) -> Self {
+        StoreError::Io { action, path: path.into(), source }
     }
 }
 

@@ -1,8 +1,8 @@
 //! Small helpers over polars frames: typed reads of a column and row gathering.
 
 use polars::prelude::{
-    Column, DataFrame, DataType, Float64Chunked, Int64Chunked, IntoColumn, IntoSeries,
-    NewChunkedArray, PlSmallStr, StringChunked,
+    Column, DataFrame, DataType, Float64Chunked, Int64Chunked, IntoColumn, IntoSeries, NewChunkedArray,
+    PlSmallStr, StringChunked,
 };
 use wardcast_contract::dataset::ColumnType;
 
@@ -19,9 +19,7 @@ pub(crate) fn column_type(col: &Column) -> Option<ColumnType> {
 }
 
 fn column<'a>(frame: &'a DataFrame, name: &str) -> Result<&'a Column> {
-    frame.column(name).map_err(|_| StoreError::UnknownColumn {
-        name: name.to_owned(),
-    })
+    frame.column(name).map_err(|_| StoreError::UnknownColumn { name: name.to_owned() })
 }
 
 /// The values of a numeric column as `f64`; `None` when it is text.
@@ -45,15 +43,12 @@ pub(crate) fn text_values(frame: &DataFrame, name: &str) -> Result<Option<Vec<Op
 
 /// The keys of a frame: every value present and distinct.
 pub(crate) fn keys(frame: &DataFrame, key: &str) -> Result<Vec<String>> {
-    let values = text_values(frame, key)?.ok_or_else(|| StoreError::BadChoice {
-        reason: format!("the key column {key:?} must be text"),
-    })?;
+    let values = text_values(frame, key)?
+        .ok_or_else(|| StoreError::BadChoice { reason: format!("the key column {key:?} must be text") })?;
     let mut out = Vec::with_capacity(values.len());
     let mut seen = std::collections::HashSet::with_capacity(values.len());
     for (i, v) in values.into_iter().enumerate() {
-        let v = v.ok_or_else(|| StoreError::BadChoice {
-            reason: format!("row {} has no key", i + 1),
-        })?;
+        let v = v.ok_or_else(|| StoreError::BadChoice { reason: format!("row {} has no key", i + 1) })?;
         if !seen.insert(v.clone()) {
             return Err(StoreError::BadChoice {
                 reason: format!("the key {v:?} appears on more than one row"),
@@ -68,16 +63,12 @@ pub(crate) fn keys(frame: &DataFrame, key: &str) -> Result<Vec<String>> {
 pub(crate) fn check_keys(frame: &DataFrame, key: &str) -> Result<()> {
     let s = column(frame, key)?.as_materialized_series();
     if s.dtype() != &DataType::String {
-        return Err(StoreError::BadChoice {
-            reason: format!("the key column {key:?} must be text"),
-        });
+        return Err(StoreError::BadChoice { reason: format!("the key column {key:?} must be text") });
     }
     let ca = s.str()?;
     let mut seen = std::collections::HashSet::with_capacity(ca.len());
     for (i, v) in ca.iter().enumerate() {
-        let v = v.ok_or_else(|| StoreError::BadChoice {
-            reason: format!("row {} has no key", i + 1),
-        })?;
+        let v = v.ok_or_else(|| StoreError::BadChoice { reason: format!("row {} has no key", i + 1) })?;
         if !seen.insert(v) {
             return Err(StoreError::BadChoice {
                 reason: format!("the key {v:?} appears on more than one row"),
@@ -96,8 +87,7 @@ pub(crate) fn gather(col: &Column, idx: &[Option<usize>], name: &str) -> Result<
             let v: Vec<Option<i64>> = s.i64()?.iter().collect();
             Int64Chunked::from_iter_options(
                 name,
-                idx.iter()
-                    .map(|i| i.and_then(|i| v.get(i).copied().flatten())),
+                idx.iter().map(|i| i.and_then(|i| v.get(i).copied().flatten())),
             )
             .into_series()
         }
@@ -105,8 +95,7 @@ pub(crate) fn gather(col: &Column, idx: &[Option<usize>], name: &str) -> Result<
             let v: Vec<Option<f64>> = s.f64()?.iter().collect();
             Float64Chunked::from_iter_options(
                 name,
-                idx.iter()
-                    .map(|i| i.and_then(|i| v.get(i).copied().flatten())),
+                idx.iter().map(|i| i.and_then(|i| v.get(i).copied().flatten())),
             )
             .into_series()
         }
@@ -114,16 +103,12 @@ pub(crate) fn gather(col: &Column, idx: &[Option<usize>], name: &str) -> Result<
             let v: Vec<Option<&str>> = s.str()?.iter().collect();
             StringChunked::from_iter_options(
                 name,
-                idx.iter()
-                    .map(|i| i.and_then(|i| v.get(i).copied().flatten())),
+                idx.iter().map(|i| i.and_then(|i| v.get(i).copied().flatten())),
             )
             .into_series()
         }
         other => {
-            return Err(StoreError::Frame(format!(
-                "column {:?} has an unsupported type {other}",
-                s.name()
-            )));
+            return Err(StoreError::Frame(format!("column {:?} has an unsupported type {other}", s.name())));
         }
     };
     Ok(out.into_column())

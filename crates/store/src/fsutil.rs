@@ -54,11 +54,8 @@ pub(crate) fn write_atomic<T>(
         let mut w = BufWriter::with_capacity(1 << 20, file);
         let value = write(&mut w)?;
         w.flush().map_err(|e| StoreError::io("write", &tmp, e))?;
-        let file = w
-            .into_inner()
-            .map_err(|e| StoreError::io("write", &tmp, e.into_error()))?;
-        file.sync_all()
-            .map_err(|e| StoreError::io("flush", &tmp, e))?;
+        let file = w.into_inner().map_err(|e| StoreError::io("write", &tmp, e.into_error()))?;
+        file.sync_all().map_err(|e| StoreError::io("flush", &tmp, e))?;
         drop(file);
         std::fs::rename(&tmp, &target).map_err(|e| StoreError::io("rename", &tmp, e))?;
         sync_dir(dir)?;
@@ -79,19 +76,12 @@ pub(crate) struct HashingWriter<W> {
 
 impl<W: Write> HashingWriter<W> {
     pub fn new(inner: W) -> Self {
-        Self {
-            inner,
-            hasher: Sha256::new(),
-            bytes: 0,
-        }
+        Self { inner, hasher: Sha256::new(), bytes: 0 }
     }
 
     /// The checksum text (`sha256:` and hex) and the byte count.
     pub fn finish(self) -> (String, u64) {
-        (
-            format!("sha256:{}", hex::encode(self.hasher.finalize())),
-            self.bytes,
-        )
+        (format!("sha256:{}", hex::encode(self.hasher.finalize())), self.bytes)
     }
 }
 
@@ -115,7 +105,5 @@ pub(crate) fn checksum(bytes: &[u8]) -> String {
 
 /// A path relative to the data folder, for log lines.
 pub(crate) fn rel(root: &Path, path: &Path) -> PathBuf {
-    path.strip_prefix(root)
-        .map(Path::to_path_buf)
-        .unwrap_or_else(|_| path.to_path_buf())
+    path.strip_prefix(root).map(Path::to_path_buf).unwrap_or_else(|_| path.to_path_buf())
 }

@@ -11,13 +11,13 @@ use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
 use std::path::Path;
 
 use polars::prelude::{
-    DataFrame, DataType, Float64Chunked, Int64Chunked, IntoColumn, IntoSeries, NewChunkedArray,
-    PlSmallStr, Series, StringChunked, StringChunkedBuilder,
+    DataFrame, DataType, Float64Chunked, Int64Chunked, IntoColumn, IntoSeries, NewChunkedArray, PlSmallStr,
+    Series, StringChunked, StringChunkedBuilder,
 };
 use wardcast_contract::SCHEMA_VERSION;
 use wardcast_contract::dataset::{
-    ColumnMeta, ColumnRole, ColumnSummary, ColumnType, DroppedRow, ImportReport, ManifestColumn,
-    Problem, ProblemCell, ProblemKind, SourceInfo,
+    ColumnMeta, ColumnRole, ColumnSummary, ColumnType, DroppedRow, ImportReport, ManifestColumn, Problem,
+    ProblemCell, ProblemKind, SourceInfo,
 };
 
 use crate::csv::{CsvSource, DecimalChoice, Delimiter};
@@ -28,11 +28,7 @@ use crate::text::{self, Encoding};
 
 /// `1 row` / `2 rows`.
 pub(crate) fn count(n: usize, one: &str, many: &str) -> String {
-    if n == 1 {
-        format!("1 {one}")
-    } else {
-        format!("{n} {many}")
-    }
+    if n == 1 { format!("1 {one}") } else { format!("{n} {many}") }
 }
 
 /// How many offending cells each problem lists.
@@ -95,22 +91,14 @@ impl Limits {
 
     /// The limits of the web app (a 256 MB upload limit).
     pub fn web() -> Self {
-        Self {
-            max_bytes: Some(Self::WEB_UPLOAD_BYTES),
-            ..Self::default()
-        }
+        Self { max_bytes: Some(Self::WEB_UPLOAD_BYTES), ..Self::default() }
     }
 }
 
 impl Default for Limits {
     /// The command line's limits: no size limit, 500 columns, 32 KB per cell.
     fn default() -> Self {
-        Self {
-            max_bytes: None,
-            max_columns: 500,
-            max_cell_bytes: 32 * 1024,
-            zip: ZipLimits::default(),
-        }
+        Self { max_bytes: None, max_columns: 500, max_cell_bytes: 32 * 1024, zip: ZipLimits::default() }
     }
 }
 
@@ -192,13 +180,7 @@ impl StagedImport {
         if self.report.key.is_none() {
             out.push("no key column was found; choose one".to_owned());
         }
-        out.extend(
-            self.report
-                .problems
-                .iter()
-                .filter(|p| p.blocks_saving)
-                .map(|p| p.message.clone()),
-        );
+        out.extend(self.report.problems.iter().filter(|p| p.blocks_saving).map(|p| p.message.clone()));
         out
     }
 }
@@ -209,25 +191,15 @@ pub fn import_file(path: &Path, options: &ImportOptions) -> Result<StagedImport>
     if let Some(limit) = options.limits.max_bytes
         && meta.len() > limit
     {
-        return Err(StoreError::TooLarge {
-            bytes: meta.len(),
-            limit,
-        });
+        return Err(StoreError::TooLarge { bytes: meta.len(), limit });
     }
     let bytes = std::fs::read(path).map_err(|e| StoreError::io("read", path, e))?;
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_default();
+    let name = path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
     import_bytes(&bytes, &name, options)
 }
 
 /// Imports a file held in memory (an upload).
-pub fn import_bytes(
-    bytes: &[u8],
-    file_name: &str,
-    options: &ImportOptions,
-) -> Result<StagedImport> {
+pub fn import_bytes(bytes: &[u8], file_name: &str, options: &ImportOptions) -> Result<StagedImport> {
     let size = bytes.len() as u64;
     if let Some(limit) = options.limits.max_bytes
         && size > limit
@@ -263,12 +235,7 @@ pub fn import_bytes(
                 sheet: Some(book.sheet.clone()),
                 sheets: book.sheets.clone(),
             };
-            let ctx = Context {
-                decimal_comma: false,
-                source,
-                formulas: book.formulas,
-                notes: book.notes,
-            };
+            let ctx = Context { decimal_comma: false, source, formulas: book.formulas, notes: book.notes };
             build(&book.grid, ctx, options)
         }
         Format::Csv | Format::Auto => {
@@ -293,14 +260,7 @@ pub fn import_bytes(
                 encoding: decoded.encoding.to_owned(),
                 delimiter: Some(layout.delimiter.name().to_owned()),
                 delimiter_note: Some(layout.delimiter_note.clone()),
-                decimal_separator: Some(
-                    if layout.decimal_comma {
-                        "comma"
-                    } else {
-                        "point"
-                    }
-                    .to_owned(),
-                ),
+                decimal_separator: Some(if layout.decimal_comma { "comma" } else { "point" }.to_owned()),
                 decimal_note: Some(layout.decimal_note.clone()),
                 sheet: None,
                 sheets: Vec::new(),
@@ -333,11 +293,7 @@ pub(crate) struct Context {
 }
 
 /// Builds from a CSV source, retrying on one part when a split fell inside a record.
-fn build_csv(
-    mut src: CsvSource<'_>,
-    ctx: Context,
-    options: &ImportOptions,
-) -> Result<StagedImport> {
+fn build_csv(mut src: CsvSource<'_>, ctx: Context, options: &ImportOptions) -> Result<StagedImport> {
     if src.parts() > 1 && options.drop_rows.is_empty() {
         match scan_all(&src, &ctx, options, true) {
             Ok(Some(scan)) => return finish(&src, scan, ctx, options),
@@ -397,10 +353,7 @@ struct Scan {
 
 fn check_header(header: &[String], limits: &Limits) -> Result<()> {
     if header.len() > limits.max_columns {
-        return Err(StoreError::TooManyColumns {
-            found: header.len(),
-            limit: limits.max_columns,
-        });
+        return Err(StoreError::TooManyColumns { found: header.len(), limit: limits.max_columns });
     }
     let mut seen: HashMap<&str, usize> = HashMap::new();
     for (i, name) in header.iter().enumerate() {
@@ -408,11 +361,7 @@ fn check_header(header: &[String], limits: &Limits) -> Result<()> {
             return Err(StoreError::BlankHeader { position: i + 1 });
         }
         if let Some(&first) = seen.get(name.as_str()) {
-            return Err(StoreError::DuplicateHeader {
-                name: name.clone(),
-                first: first + 1,
-                second: i + 1,
-            });
+            return Err(StoreError::DuplicateHeader { name: name.clone(), first: first + 1, second: i + 1 });
         }
         seen.insert(name, i);
     }
@@ -424,39 +373,24 @@ fn check_options(header: &[String], options: &ImportOptions) -> Result<()> {
         if header.iter().any(|h| h == name) {
             Ok(())
         } else {
-            Err(StoreError::UnknownColumn {
-                name: name.to_owned(),
-            })
+            Err(StoreError::UnknownColumn { name: name.to_owned() })
         }
     };
     if let Some(k) = &options.key {
         known(k)?;
     }
-    for name in options
-        .types
-        .keys()
-        .chain(options.roles.keys())
-        .chain(options.text_as_missing.iter())
-    {
+    for name in options.types.keys().chain(options.roles.keys()).chain(options.text_as_missing.iter()) {
         known(name)?;
     }
     for d in &options.drop_rows {
         if d.reason.trim().is_empty() {
-            return Err(StoreError::BadChoice {
-                reason: format!("dropping row {} needs a reason", d.row),
-            });
+            return Err(StoreError::BadChoice { reason: format!("dropping row {} needs a reason", d.row) });
         }
     }
-    let key_roles: Vec<&String> = options
-        .roles
-        .iter()
-        .filter(|(_, r)| **r == ColumnRole::Key)
-        .map(|(name, _)| name)
-        .collect();
+    let key_roles: Vec<&String> =
+        options.roles.iter().filter(|(_, r)| **r == ColumnRole::Key).map(|(name, _)| name).collect();
     if key_roles.len() > 1 {
-        return Err(StoreError::BadChoice {
-            reason: "only one column can have the key role".into(),
-        });
+        return Err(StoreError::BadChoice { reason: "only one column can have the key role".into() });
     }
     if let (Some(k), Some(r)) = (&options.key, key_roles.first())
         && k != *r
@@ -481,25 +415,14 @@ fn scan_all<S: RecordSource>(
     check_options(header, options)?;
     let ncols = header.len();
     let drops: HashSet<usize> = options.drop_rows.iter().map(|d| d.row).collect();
-    let run = |part: usize| {
-        scan_part(
-            src,
-            part,
-            ncols,
-            ctx.decimal_comma,
-            options.limits.max_cell_bytes,
-            &drops,
-        )
-    };
+    let run =
+        |part: usize| scan_part(src, part, ncols, ctx.decimal_comma, options.limits.max_cell_bytes, &drops);
     let parts: Vec<PartScan> = if parallel {
         let results: Vec<Result<PartScan>> = std::thread::scope(|s| {
             let handles: Vec<_> = (0..src.parts()).map(|p| s.spawn(move || run(p))).collect();
             handles
                 .into_iter()
-                .map(|h| {
-                    h.join()
-                        .unwrap_or_else(|_| Err(StoreError::Frame("a reader thread failed".into())))
-                })
+                .map(|h| h.join().unwrap_or_else(|_| Err(StoreError::Frame("a reader thread failed".into()))))
                 .collect()
         });
         let mut parts = Vec::with_capacity(results.len());
@@ -533,11 +456,7 @@ fn scan_all<S: RecordSource>(
         }
     }
     let ragged_total: usize = scan.parts.iter().map(|p| p.ragged_total).sum();
-    if let Some((p, off)) = scan
-        .parts
-        .iter()
-        .zip(&scan.offsets)
-        .find(|(p, _)| p.ragged.is_some())
+    if let Some((p, off)) = scan.parts.iter().zip(&scan.offsets).find(|(p, _)| p.ragged.is_some())
         && let Some((ord, offset, found)) = p.ragged
     {
         return Err(StoreError::RaggedRows {
@@ -560,10 +479,7 @@ fn scan_part<S: RecordSource>(
     drops: &HashSet<usize>,
 ) -> Result<PartScan> {
     let first_row = src.header_row() + 1;
-    let mut out = PartScan {
-        cols: (0..ncols).map(|_| ColScan::default()).collect(),
-        ..PartScan::default()
-    };
+    let mut out = PartScan { cols: (0..ncols).map(|_| ColScan::default()).collect(), ..PartScan::default() };
     let mut stop = false;
     let visit = src.visit(part, &mut |row: &Row<'_>| {
         let ord = out.records;
@@ -593,10 +509,7 @@ fn scan_part<S: RecordSource>(
             }
         }
         if !drops.is_empty() && drops.contains(&(first_row + ord)) {
-            out.dropped.push((
-                first_row + ord,
-                (0..ncols).map(|c| row.cell(c).into_owned()).collect(),
-            ));
+            out.dropped.push((first_row + ord, (0..ncols).map(|c| row.cell(c).into_owned()).collect()));
             return Ok(());
         }
         out.ordinals.push(ord);
@@ -616,8 +529,7 @@ fn scan_part<S: RecordSource>(
                 CellClass::Text | CellClass::IntLeadingZero | CellClass::LongDigits => {
                     col.values.push(f64::NAN);
                     if col.examples.len() < EXAMPLES {
-                        col.examples
-                            .push((ord, infer::trim_blank(&cell).to_owned()));
+                        col.examples.push((ord, infer::trim_blank(&cell).to_owned()));
                     }
                 }
             }
@@ -654,27 +566,18 @@ fn text_part<S: RecordSource>(
     src.visit(part, &mut |row: &Row<'_>| {
         let this = ord;
         ord += 1;
-        if row.is_blank()
-            || row.len() != ncols
-            || (!drops.is_empty() && drops.contains(&(first_row + this)))
+        if row.is_blank() || row.len() != ncols || (!drops.is_empty() && drops.contains(&(first_row + this)))
         {
             return Ok(());
         }
         for (b, &c) in builders.iter_mut().zip(text_cols) {
             let cell = row.cell(c);
             let t = infer::trim_blank(&cell);
-            if t.is_empty() {
-                b.append_null()
-            } else {
-                b.append_value(t)
-            }
+            if t.is_empty() { b.append_null() } else { b.append_value(t) }
         }
         Ok(())
     })?;
-    Ok(builders
-        .into_iter()
-        .map(StringChunkedBuilder::finish)
-        .collect())
+    Ok(builders.into_iter().map(StringChunkedBuilder::finish).collect())
 }
 
 /// Numeric summary of one column.
@@ -773,9 +676,7 @@ fn series_values(series: &Series) -> Result<Vec<Option<f64>>> {
 /// Worker threads for large inputs: as asked, or up to four as the machine allows.
 fn worker_count(options: &ImportOptions) -> usize {
     if options.threads == 0 {
-        std::thread::available_parallelism()
-            .map_or(1, |n| n.get())
-            .min(4)
+        std::thread::available_parallelism().map_or(1, |n| n.get()).min(4)
     } else {
         options.threads
     }
@@ -783,11 +684,7 @@ fn worker_count(options: &ImportOptions) -> usize {
 
 /// Formats a number for a problem cell.
 fn show(v: f64) -> String {
-    if v.fract() == 0.0 && v.abs() < 1e15 {
-        format!("{}", v as i64)
-    } else {
-        format!("{v}")
-    }
+    if v.fract() == 0.0 && v.abs() < 1e15 { format!("{}", v as i64) } else { format!("{v}") }
 }
 
 fn finish<S: RecordSource>(
@@ -803,21 +700,17 @@ fn finish<S: RecordSource>(
     let blanks: usize = parts.iter().map(|p| p.blanks).sum();
 
     // Row numbers of the kept rows.
-    let mut row_numbers: Vec<usize> =
-        Vec::with_capacity(parts.iter().map(|p| p.ordinals.len()).sum());
+    let mut row_numbers: Vec<usize> = Vec::with_capacity(parts.iter().map(|p| p.ordinals.len()).sum());
     for (p, off) in parts.iter().zip(&offsets) {
         row_numbers.extend(p.ordinals.iter().map(|o| first_row + off + o));
     }
     // Dropped rows must all exist.
-    let dropped_cells: Vec<(usize, Vec<String>)> = parts
-        .iter_mut()
-        .flat_map(|p| std::mem::take(&mut p.dropped))
-        .collect();
+    let dropped_cells: Vec<(usize, Vec<String>)> =
+        parts.iter_mut().flat_map(|p| std::mem::take(&mut p.dropped)).collect();
     for d in &options.drop_rows {
         if !dropped_cells.iter().any(|(r, _)| *r == d.row) {
-            let last = first_row
-                + offsets.last().copied().unwrap_or(0)
-                + parts.last().map_or(0, |p| p.records);
+            let last =
+                first_row + offsets.last().copied().unwrap_or(0) + parts.last().map_or(0, |p| p.records);
             return Err(StoreError::BadChoice {
                 reason: format!(
                     "row {} cannot be dropped: it is not a data row (data rows are {first_row} to {})",
@@ -831,9 +724,7 @@ fn finish<S: RecordSource>(
         return Err(if dropped_cells.is_empty() {
             StoreError::HeaderOnly
         } else {
-            StoreError::BadChoice {
-                reason: "every data row was dropped".into(),
-            }
+            StoreError::BadChoice { reason: "every data row was dropped".into() }
         });
     }
     let nrows = row_numbers.len();
@@ -847,19 +738,13 @@ fn finish<S: RecordSource>(
             counts[c].merge(&col.counts);
             for (ord, value) in col.examples.drain(..) {
                 if examples[c].len() < EXAMPLES {
-                    examples[c].push(ProblemCell {
-                        row: first_row + off + ord,
-                        value,
-                    });
+                    examples[c].push(ProblemCell { row: first_row + off + ord, value });
                 }
             }
             if first_decimal[c].is_none()
                 && let Some((ord, value)) = col.first_decimal.take()
             {
-                first_decimal[c] = Some(ProblemCell {
-                    row: first_row + off + ord,
-                    value,
-                });
+                first_decimal[c] = Some(ProblemCell { row: first_row + off + ord, value });
             }
         }
     }
@@ -867,11 +752,7 @@ fn finish<S: RecordSource>(
     // Key: chosen, given the key role, named like one, or the first complete text or
     // whole-number column.
     let inferred: Vec<(ColumnType, String)> = counts.iter().map(infer::infer_type).collect();
-    let role_key = options
-        .roles
-        .iter()
-        .find(|(_, r)| **r == ColumnRole::Key)
-        .map(|(n, _)| n.clone());
+    let role_key = options.roles.iter().find(|(_, r)| **r == ColumnRole::Key).map(|(n, _)| n.clone());
     let (key, key_note) = if let Some(k) = options.key.clone().or(role_key) {
         let note = format!("{k:?} was chosen as the key");
         (Some(header.iter().position(|h| *h == k).unwrap_or(0)), note)
@@ -879,10 +760,7 @@ fn finish<S: RecordSource>(
         let by_name = (0..ncols)
             .filter(|&c| {
                 infer::key_name_score(&header[c]) > 0
-                    && !options
-                        .types
-                        .get(&header[c])
-                        .is_some_and(|t| t.is_numeric())
+                    && !options.types.get(&header[c]).is_some_and(|t| t.is_numeric())
             })
             .max_by_key(|&c| (infer::key_name_score(&header[c]), std::cmp::Reverse(c)));
         match by_name {
@@ -897,10 +775,7 @@ fn finish<S: RecordSource>(
                 let complete = (0..ncols).find(|&c| {
                     counts[c].missing == 0
                         && matches!(inferred[c].0, ColumnType::Text | ColumnType::Integer)
-                        && !options
-                            .types
-                            .get(&header[c])
-                            .is_some_and(|t| t.is_numeric())
+                        && !options.types.get(&header[c]).is_some_and(|t| t.is_numeric())
                 });
                 match complete {
                     Some(c) => (
@@ -910,10 +785,7 @@ fn finish<S: RecordSource>(
                             header[c]
                         ),
                     ),
-                    None => (
-                        None,
-                        "no column looks like a region key; choose one".to_owned(),
-                    ),
+                    None => (None, "no column looks like a region key; choose one".to_owned()),
                 }
             }
         }
@@ -952,9 +824,7 @@ fn finish<S: RecordSource>(
     }
 
     // Pass 2: text columns. Their first-pass numbers are not needed.
-    let text_cols: Vec<usize> = (0..ncols)
-        .filter(|&c| types[c] == ColumnType::Text)
-        .collect();
+    let text_cols: Vec<usize> = (0..ncols).filter(|&c| types[c] == ColumnType::Text).collect();
     for p in parts.iter_mut() {
         for &c in &text_cols {
             p.cols[c].values = Vec::new();
@@ -971,9 +841,7 @@ fn finish<S: RecordSource>(
                 handles
                     .into_iter()
                     .map(|h| {
-                        h.join().unwrap_or_else(|_| {
-                            Err(StoreError::Frame("a reader thread failed".into()))
-                        })
+                        h.join().unwrap_or_else(|_| Err(StoreError::Frame("a reader thread failed".into())))
                     })
                     .collect()
             })
@@ -992,50 +860,31 @@ fn finish<S: RecordSource>(
     let mut built: Vec<Option<(NumStats, Series)>> = (0..ncols).map(|_| None).collect();
     let work: Vec<(usize, Vec<Vec<f64>>)> = (0..ncols)
         .filter(|&c| types[c] != ColumnType::Text)
-        .map(|c| {
-            (
-                c,
-                parts
-                    .iter_mut()
-                    .map(|p| std::mem::take(&mut p.cols[c].values))
-                    .collect(),
-            )
-        })
+        .map(|c| (c, parts.iter_mut().map(|p| std::mem::take(&mut p.cols[c].values)).collect()))
         .collect();
-    let threads = if nrows < 50_000 {
-        1
-    } else {
-        worker_count(options).min(work.len()).max(1)
-    };
+    let threads = if nrows < 50_000 { 1 } else { worker_count(options).min(work.len()).max(1) };
     let mut buckets: Vec<Vec<(usize, Vec<Vec<f64>>)>> = (0..threads).map(|_| Vec::new()).collect();
     for (i, item) in work.into_iter().enumerate() {
         buckets[i % threads].push(item);
     }
-    let build_bucket =
-        |bucket: Vec<(usize, Vec<Vec<f64>>)>| -> Result<Vec<(usize, NumStats, Series)>> {
-            bucket
-                .into_iter()
-                .map(|(c, chunks)| {
-                    let stats = num_stats(&chunks);
-                    let series = numeric_series(&header[c], types[c], chunks)?;
-                    Ok((c, stats, series))
-                })
-                .collect()
-        };
+    let build_bucket = |bucket: Vec<(usize, Vec<Vec<f64>>)>| -> Result<Vec<(usize, NumStats, Series)>> {
+        bucket
+            .into_iter()
+            .map(|(c, chunks)| {
+                let stats = num_stats(&chunks);
+                let series = numeric_series(&header[c], types[c], chunks)?;
+                Ok((c, stats, series))
+            })
+            .collect()
+    };
     let results: Vec<Result<Vec<(usize, NumStats, Series)>>> = if threads == 1 {
         buckets.into_iter().map(build_bucket).collect()
     } else {
         std::thread::scope(|s| {
-            let handles: Vec<_> = buckets
-                .into_iter()
-                .map(|b| s.spawn(move || build_bucket(b)))
-                .collect();
+            let handles: Vec<_> = buckets.into_iter().map(|b| s.spawn(move || build_bucket(b))).collect();
             handles
                 .into_iter()
-                .map(|h| {
-                    h.join()
-                        .unwrap_or_else(|_| Err(StoreError::Frame("a worker thread failed".into())))
-                })
+                .map(|h| h.join().unwrap_or_else(|_| Err(StoreError::Frame("a worker thread failed".into()))))
                 .collect()
         })
     };
@@ -1056,19 +905,9 @@ fn finish<S: RecordSource>(
         let ty = types[c];
         let is_key = Some(c) == key;
         let (inferred_ty, type_note) = if is_key {
-            (
-                inferred[c].0,
-                "text: the region key is kept exactly as written".to_owned(),
-            )
+            (inferred[c].0, "text: the region key is kept exactly as written".to_owned())
         } else if let Some(t) = options.types.get(name) {
-            (
-                inferred[c].0,
-                format!(
-                    "{} (chosen; the values suggested {})",
-                    t.name(),
-                    inferred[c].0.name()
-                ),
-            )
+            (inferred[c].0, format!("{} (chosen; the values suggested {})", t.name(), inferred[c].0.name()))
         } else {
             (inferred[c].0, inferred[c].1.clone())
         };
@@ -1136,9 +975,8 @@ fn finish<S: RecordSource>(
             }
             frame_cols.push(ca.into_series().into_column());
         } else {
-            let (stats, series) = built[c]
-                .take()
-                .ok_or_else(|| StoreError::Frame(format!("column {name:?} was not built")))?;
+            let (stats, series) =
+                built[c].take().ok_or_else(|| StoreError::Frame(format!("column {name:?} was not built")))?;
             summary.count = stats.count;
             summary.missing = nrows - stats.count;
             summary.min = stats.min;
@@ -1149,9 +987,7 @@ fn finish<S: RecordSource>(
             role = r;
             summary.role = r;
             summary.role_note = note;
-            if matches!(r, ColumnRole::Count | ColumnRole::Population)
-                && stats.min.is_some_and(|m| m < 0.0)
-            {
+            if matches!(r, ColumnRole::Count | ColumnRole::Population) && stats.min.is_some_and(|m| m < 0.0) {
                 for (i, v) in series_values(&series)?.into_iter().enumerate() {
                     if let Some(v) = v.filter(|v| *v < 0.0) {
                         negative_total += 1;
@@ -1205,15 +1041,16 @@ fn finish<S: RecordSource>(
                     count(negative_total, "negative value", "negative values")
                 ),
                 total: negative_total,
-                examples: negatives.iter().map(|(row, v)| ProblemCell { row: *row, value: show(*v) }).collect(),
+                examples: negatives
+                    .iter()
+                    .map(|(row, v)| ProblemCell { row: *row, value: show(*v) })
+                    .collect(),
                 blocks_saving: true,
-                remedy: "drop those rows with a reason, or change the column's role if it is not a count".into(),
+                remedy: "drop those rows with a reason, or change the column's role if it is not a count"
+                    .into(),
             });
         }
-        manifest_cols.push(ManifestColumn {
-            column_type: ty,
-            meta: ColumnMeta::new(name.clone(), role),
-        });
+        manifest_cols.push(ManifestColumn { column_type: ty, meta: ColumnMeta::new(name.clone(), role) });
         summaries.push(summary);
     }
 
@@ -1245,15 +1082,11 @@ fn finish<S: RecordSource>(
                     examples: blank_rows
                         .iter()
                         .take(EXAMPLES)
-                        .map(|&row| ProblemCell {
-                            row,
-                            value: String::new(),
-                        })
+                        .map(|&row| ProblemCell { row, value: String::new() })
                         .collect(),
                     blocks_saving: true,
-                    remedy:
-                        "drop those rows with a reason, fix the file, or choose another key column"
-                            .into(),
+                    remedy: "drop those rows with a reason, fix the file, or choose another key column"
+                        .into(),
                 },
             );
         }
@@ -1263,23 +1096,30 @@ fn finish<S: RecordSource>(
                 .iter()
                 .enumerate()
                 .filter_map(|(i, v)| {
-                    v.filter(|k| seen.get(k).is_some_and(|&n| n > 1))
-                        .map(|k| (row_numbers[i], k))
+                    v.filter(|k| seen.get(k).is_some_and(|&n| n > 1)).map(|k| (row_numbers[i], k))
                 })
                 .collect();
-            problems.insert(0, Problem {
-                kind: ProblemKind::DuplicateKey,
-                column: name.clone(),
-                message: format!(
-                    "{} in column {name:?} on more than one row ({} rows)",
-                    count(keys_repeated, "key appears", "keys appear"),
-                    dup.len()
-                ),
-                total: dup.len(),
-                examples: dup.iter().take(EXAMPLES).map(|&(row, k)| ProblemCell { row, value: k.to_owned() }).collect(),
-                blocks_saving: true,
-                remedy: "drop the extra rows with a reason, fix the file, or choose another key column".into(),
-            });
+            problems.insert(
+                0,
+                Problem {
+                    kind: ProblemKind::DuplicateKey,
+                    column: name.clone(),
+                    message: format!(
+                        "{} in column {name:?} on more than one row ({} rows)",
+                        count(keys_repeated, "key appears", "keys appear"),
+                        dup.len()
+                    ),
+                    total: dup.len(),
+                    examples: dup
+                        .iter()
+                        .take(EXAMPLES)
+                        .map(|&(row, k)| ProblemCell { row, value: k.to_owned() })
+                        .collect(),
+                    blocks_saving: true,
+                    remedy: "drop the extra rows with a reason, fix the file, or choose another key column"
+                        .into(),
+                },
+            );
         }
     }
 
@@ -1307,19 +1147,13 @@ fn finish<S: RecordSource>(
     }
 
     // Dropped rows with their keys.
-    let reason_of: HashMap<usize, &str> = options
-        .drop_rows
-        .iter()
-        .map(|d| (d.row, d.reason.as_str()))
-        .collect();
+    let reason_of: HashMap<usize, &str> =
+        options.drop_rows.iter().map(|d| (d.row, d.reason.as_str())).collect();
     let dropped_rows: Vec<DroppedRow> = dropped_cells
         .iter()
         .map(|(row, cells)| DroppedRow {
             row: *row,
-            key: key
-                .and_then(|k| cells.get(k))
-                .map(|s| infer::trim_blank(s).to_owned())
-                .unwrap_or_default(),
+            key: key.and_then(|k| cells.get(k)).map(|s| infer::trim_blank(s).to_owned()).unwrap_or_default(),
             reason: reason_of.get(row).copied().unwrap_or_default().to_owned(),
         })
         .collect();
@@ -1345,11 +1179,7 @@ fn finish<S: RecordSource>(
         notes,
         can_save,
     };
-    Ok(StagedImport {
-        report,
-        frame,
-        columns: manifest_cols,
-    })
+    Ok(StagedImport { report, frame, columns: manifest_cols })
 }
 
 fn role_for(
@@ -1373,14 +1203,7 @@ fn role_for(
         }
         return Ok((r, "chosen".into()));
     }
-    Ok(infer::infer_role(
-        name,
-        false,
-        ValueFacts {
-            column_type: ty,
-            min,
-        },
-    ))
+    Ok(infer::infer_role(name, false, ValueFacts { column_type: ty, min }))
 }
 
 fn empty_problem(name: &str) -> Problem {
@@ -1400,20 +1223,10 @@ fn constant_problem(name: &str, first: Option<(usize, &str)>) -> Problem {
     Problem {
         kind: ProblemKind::ConstantColumn,
         column: name.to_owned(),
-        message: format!(
-            "column {name:?} holds the same value ({value}) on every row that has one"
-        ),
+        message: format!("column {name:?} holds the same value ({value}) on every row that has one"),
         total: 1,
-        examples: first
-            .map(|(row, v)| {
-                vec![ProblemCell {
-                    row,
-                    value: v.to_owned(),
-                }]
-            })
-            .unwrap_or_default(),
+        examples: first.map(|(row, v)| vec![ProblemCell { row, value: v.to_owned() }]).unwrap_or_default(),
         blocks_saving: false,
-        remedy: "a constant column cannot explain differences between areas; check the export"
-            .into(),
+        remedy: "a constant column cannot explain differences between areas; check the export".into(),
     }
 }

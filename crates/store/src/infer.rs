@@ -30,8 +30,8 @@ pub(crate) fn trim_blank(s: &str) -> &str {
 }
 
 const POW10: [f64; 23] = [
-    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
-    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18,
+    1e19, 1e20, 1e21, 1e22,
 ];
 
 /// Classifies a cell and, for numbers, returns its value.
@@ -127,11 +127,7 @@ pub(crate) fn classify(cell: &str, decimal_comma: bool) -> (CellClass, f64) {
         return (CellClass::Decimal, if negative { -v } else { v });
     }
     // General path: the standard parser on the (point-separated) text.
-    let parsed = if decimal_comma {
-        s.replacen(',', ".", 1).parse::<f64>()
-    } else {
-        s.parse::<f64>()
-    };
+    let parsed = if decimal_comma { s.replacen(',', ".", 1).parse::<f64>() } else { s.parse::<f64>() };
     match parsed {
         Ok(v) if v.is_finite() => (CellClass::Decimal, v),
         _ => (CellClass::Text, 0.0),
@@ -198,32 +194,19 @@ pub(crate) fn infer_type(c: &ClassCounts) -> (ColumnType, String) {
     }
     if c.non_numbers() == 0 {
         return if c.decimal > 0 {
-            (
-                ColumnType::Decimal,
-                "every value is a number, some with a fractional part".into(),
-            )
+            (ColumnType::Decimal, "every value is a number, some with a fractional part".into())
         } else {
             (ColumnType::Integer, "every value is a whole number".into())
         };
     }
     if c.leading_zero > 0 && c.text == 0 && c.decimal == 0 {
-        return (
-            ColumnType::Text,
-            "whole numbers with leading zeros, kept as text codes".into(),
-        );
+        return (ColumnType::Text, "whole numbers with leading zeros, kept as text codes".into());
     }
     if c.long_digits > 0 && c.text == 0 && c.decimal == 0 {
-        return (
-            ColumnType::Text,
-            "digit strings too long to hold exactly, kept as text codes".into(),
-        );
+        return (ColumnType::Text, "digit strings too long to hold exactly, kept as text codes".into());
     }
     if c.numbers() > c.non_numbers() {
-        let ty = if c.decimal > 0 {
-            ColumnType::Decimal
-        } else {
-            ColumnType::Integer
-        };
+        let ty = if c.decimal > 0 { ColumnType::Decimal } else { ColumnType::Integer };
         return (
             ty,
             format!(
@@ -233,10 +216,7 @@ pub(crate) fn infer_type(c: &ClassCounts) -> (ColumnType, String) {
             ),
         );
     }
-    (
-        ColumnType::Text,
-        format!("{} of {present} values are not numbers", c.non_numbers()),
-    )
+    (ColumnType::Text, format!("{} of {present} values are not numbers", c.non_numbers()))
 }
 
 /// Whether a name looks like a region key.
@@ -306,24 +286,10 @@ pub(crate) fn infer_role(name: &str, is_key: bool, facts: ValueFacts) -> (Column
         return (ColumnRole::Rate, "the name says it is a rate".into());
     }
     if has(&["per"]) {
-        return (
-            ColumnRole::Indicator,
-            "the name says it is a per-unit measure: an indicator".into(),
-        );
+        return (ColumnRole::Indicator, "the name says it is a per-unit measure: an indicator".into());
     }
-    if has(&[
-        "population",
-        "pop",
-        "residents",
-        "inhabitants",
-        "households",
-        "persons",
-        "people",
-    ]) {
-        return (
-            ColumnRole::Population,
-            "the name says it is a population".into(),
-        );
+    if has(&["population", "pop", "residents", "inhabitants", "households", "persons", "people"]) {
+        return (ColumnRole::Population, "the name says it is a population".into());
     }
     if has(&[
         "count",
@@ -350,22 +316,8 @@ pub(crate) fn infer_role(name: &str, is_key: bool, facts: ValueFacts) -> (Column
     ]) {
         return (ColumnRole::Count, "the name says it is a count".into());
     }
-    if has(&[
-        "pct",
-        "percent",
-        "share",
-        "proportion",
-        "ratio",
-        "index",
-        "median",
-        "mean",
-        "avg",
-        "average",
-    ]) {
-        return (
-            ColumnRole::Indicator,
-            "the name says it is a measured indicator".into(),
-        );
+    if has(&["pct", "percent", "share", "proportion", "ratio", "index", "median", "mean", "avg", "average"]) {
+        return (ColumnRole::Indicator, "the name says it is a measured indicator".into());
     }
     if whole && facts.min.is_some_and(|m| m >= 0.0) {
         return (

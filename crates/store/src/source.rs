@@ -15,12 +15,7 @@ pub(crate) struct Span {
 /// One record: the header, a data row or a blank line.
 pub(crate) enum Row<'a> {
     /// A CSV record: field spans in the decoded text.
-    Csv {
-        text: &'a str,
-        spans: &'a [Span],
-        offset: usize,
-        blank: bool,
-    },
+    Csv { text: &'a str, spans: &'a [Span], offset: usize, blank: bool },
     /// A worksheet row: cell texts.
     Cells { cells: &'a [String], blank: bool },
 }
@@ -55,11 +50,7 @@ impl Row<'_> {
             Row::Csv { text, spans, .. } => match spans.get(i) {
                 Some(s) => {
                     let raw = text.get(s.start..s.end).unwrap_or("");
-                    if s.escaped {
-                        Cow::Owned(raw.replace("\"\"", "\""))
-                    } else {
-                        Cow::Borrowed(raw)
-                    }
+                    if s.escaped { Cow::Owned(raw.replace("\"\"", "\"")) } else { Cow::Borrowed(raw) }
                 }
                 None => Cow::Borrowed(""),
             },

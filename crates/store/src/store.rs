@@ -26,9 +26,7 @@ use std::time::{SystemTime, UNIX_EPOCH};
 use polars::prelude::{DataFrame, IpcReader, IpcWriter, SerReader, SerWriter};
 use sha2::{Digest, Sha256};
 use wardcast_contract::SCHEMA_VERSION;
-use wardcast_contract::dataset::{
-    DatasetListing, DatasetManifest, JoinKind, Origin, SavedAnalysis,
-};
+use wardcast_contract::dataset::{DatasetListing, DatasetManifest, JoinKind, Origin, SavedAnalysis};
 
 use crate::dataset::{Dataset, Draft, join};
 use crate::error::{Result, StoreError};
@@ -80,17 +78,11 @@ pub fn slug(name: &str) -> String {
     while out.ends_with('-') {
         out.pop();
     }
-    if out.is_empty() {
-        "table".to_owned()
-    } else {
-        out
-    }
+    if out.is_empty() { "table".to_owned() } else { out }
 }
 
 fn now_unix() -> u64 {
-    SystemTime::now()
-        .duration_since(UNIX_EPOCH)
-        .map_or(0, |d| d.as_secs())
+    SystemTime::now().duration_since(UNIX_EPOCH).map_or(0, |d| d.as_secs())
 }
 
 fn version_file(version: u32, ext: &str) -> String {
@@ -110,22 +102,14 @@ fn read_version(dir: &Path, m: &DatasetManifest) -> Result<DataFrame> {
     if bytes.len() as u64 != m.data_bytes || fsutil::checksum(&bytes) != m.checksum {
         return Err(StoreError::Checksum { path });
     }
-    let parsed = catch_unwind(AssertUnwindSafe(|| {
-        IpcReader::new(Cursor::new(bytes)).finish()
-    }));
+    let parsed = catch_unwind(AssertUnwindSafe(|| IpcReader::new(Cursor::new(bytes)).finish()));
     let frame = match parsed {
         Ok(Ok(f)) => f,
         Ok(Err(e)) => {
-            return Err(StoreError::BadDocument {
-                path,
-                reason: e.to_string(),
-            });
+            return Err(StoreError::BadDocument { path, reason: e.to_string() });
         }
         Err(_) => {
-            return Err(StoreError::BadDocument {
-                path,
-                reason: "the data file is malformed".into(),
-            });
+            return Err(StoreError::BadDocument { path, reason: "the data file is malformed".into() });
         }
     };
     let names: Vec<&str> = frame.columns().iter().map(|c| c.name().as_str()).collect();
@@ -152,11 +136,7 @@ impl Store {
         for sub in ["datasets", "analyses", "quarantine"] {
             ensure_dir(&root.join(sub))?;
         }
-        let mut store = Store {
-            root,
-            datasets: BTreeMap::new(),
-            analyses: BTreeMap::new(),
-        };
+        let mut store = Store { root, datasets: BTreeMap::new(), analyses: BTreeMap::new() };
         let mut report = LoadReport::default();
         store.load_datasets(&mut report)?;
         store.load_analyses(&mut report)?;
@@ -202,9 +182,7 @@ impl Store {
             return;
         }
         let stamp = now_unix();
-        let flat = rel(&self.root, path)
-            .to_string_lossy()
-            .replace(['/', '\\'], "__");
+        let flat = rel(&self.root, path).to_string_lossy().replace(['/', '\\'], "__");
         let qdir = self.root.join("quarantine");
         let mut target = qdir.join(format!("{stamp}-{flat}"));
         let mut n = 1;
@@ -225,10 +203,9 @@ impl Store {
                 ));
                 report.quarantined.push(target);
             }
-            Err(e) => report.log.push(format!(
-                "could not quarantine {} ({why}): {e}",
-                rel(&self.root, path).display()
-            )),
+            Err(e) => report
+                .log
+                .push(format!("could not quarantine {} ({why}): {e}", rel(&self.root, path).display())),
         }
     }
 
@@ -249,10 +226,7 @@ impl Store {
             let mut versions: Vec<DatasetManifest> = Vec::new();
             let mut referenced = std::collections::HashSet::new();
             for path in &files {
-                let file = path
-                    .file_name()
-                    .map(|n| n.to_string_lossy().into_owned())
-                    .unwrap_or_default();
+                let file = path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
                 if file.starts_with(TEMP_PREFIX) {
                     self.remove_temp(path, report);
                     continue;
@@ -267,11 +241,7 @@ impl Store {
                 {
                     Ok(m) => m,
                     Err(e) => {
-                        self.quarantine(
-                            path,
-                            &format!("the manifest cannot be read ({e})"),
-                            report,
-                        );
+                        self.quarantine(path, &format!("the manifest cannot be read ({e})"), report);
                         self.quarantine(&data_guess, "its manifest was damaged", report);
                         continue;
                     }
@@ -309,12 +279,13 @@ impl Store {
                 }
             }
             for path in &files {
-                let file = path
-                    .file_name()
-                    .map(|n| n.to_string_lossy().into_owned())
-                    .unwrap_or_default();
+                let file = path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
                 if file.ends_with(".arrow") && !referenced.contains(&file) && path.exists() {
-                    self.quarantine(path, "no manifest refers to it (a save was interrupted before its manifest was written)", report);
+                    self.quarantine(
+                        path,
+                        "no manifest refers to it (a save was interrupted before its manifest was written)",
+                        report,
+                    );
                 }
             }
             versions.sort_by_key(|m| m.version);
@@ -328,10 +299,7 @@ impl Store {
     fn load_analyses(&mut self, report: &mut LoadReport) -> Result<()> {
         let base = self.root.join("analyses");
         for path in Self::list_dir(&base)? {
-            let file = path
-                .file_name()
-                .map(|n| n.to_string_lossy().into_owned())
-                .unwrap_or_default();
+            let file = path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
             if file.starts_with(TEMP_PREFIX) {
                 self.remove_temp(&path, report);
                 continue;
@@ -346,14 +314,10 @@ impl Store {
                 Ok(a) if a.check_schema().is_ok() && format!("{}.json", a.id) == file => {
                     self.analyses.insert(a.id.clone(), a);
                 }
-                Ok(_) => self.quarantine(
-                    &path,
-                    "the analysis does not belong here (schema or id differs)",
-                    report,
-                ),
-                Err(e) => {
-                    self.quarantine(&path, &format!("the analysis cannot be read ({e})"), report)
+                Ok(_) => {
+                    self.quarantine(&path, "the analysis does not belong here (schema or id differs)", report)
                 }
+                Err(e) => self.quarantine(&path, &format!("the analysis cannot be read ({e})"), report),
             }
         }
         Ok(())
@@ -382,31 +346,21 @@ impl Store {
     /// The manifests of one dataset, oldest first.
     pub fn versions(&self, dataset: &str) -> Result<&[DatasetManifest]> {
         let id = self.resolve_dataset(dataset)?;
-        Ok(self
-            .datasets
-            .get(&id)
-            .map(Vec::as_slice)
-            .unwrap_or_default())
+        Ok(self.datasets.get(&id).map(Vec::as_slice).unwrap_or_default())
     }
 
     fn resolve_dataset(&self, name: &str) -> Result<String> {
         if self.datasets.contains_key(name) {
             return Ok(name.to_owned());
         }
-        if let Some((id, _)) = self
-            .datasets
-            .iter()
-            .find(|(_, v)| v.last().is_some_and(|m| m.name == name))
-        {
+        if let Some((id, _)) = self.datasets.iter().find(|(_, v)| v.last().is_some_and(|m| m.name == name)) {
             return Ok(id.clone());
         }
         let s = slug(name);
         if self.datasets.contains_key(&s) {
             return Ok(s);
         }
-        Err(StoreError::UnknownDataset {
-            name: name.to_owned(),
-        })
+        Err(StoreError::UnknownDataset { name: name.to_owned() })
     }
 
     /// The manifest of `dataset`, `dataset@latest` or `dataset@N` (by id or name).
@@ -416,31 +370,21 @@ impl Store {
             None => (reference, None),
         };
         let id = self.resolve_dataset(name)?;
-        let versions = self
-            .datasets
-            .get(&id)
-            .ok_or_else(|| StoreError::UnknownDataset {
-                name: name.to_owned(),
-            })?;
+        let versions =
+            self.datasets.get(&id).ok_or_else(|| StoreError::UnknownDataset { name: name.to_owned() })?;
         match version {
-            None | Some("latest") => versions.last().ok_or(StoreError::UnknownDataset {
-                name: name.to_owned(),
-            }),
+            None | Some("latest") => {
+                versions.last().ok_or(StoreError::UnknownDataset { name: name.to_owned() })
+            }
             Some(v) => {
-                let n: u32 =
-                    v.trim_start_matches('v')
-                        .parse()
-                        .map_err(|_| StoreError::UnknownVersion {
-                            dataset: id.clone(),
-                            version: v.to_owned(),
-                        })?;
+                let n: u32 = v
+                    .trim_start_matches('v')
+                    .parse()
+                    .map_err(|_| StoreError::UnknownVersion { dataset: id.clone(), version: v.to_owned() })?;
                 versions
                     .iter()
                     .find(|m| m.version == n)
-                    .ok_or(StoreError::UnknownVersion {
-                        dataset: id.clone(),
-                        version: v.to_owned(),
-                    })
+                    .ok_or(StoreError::UnknownVersion { dataset: id.clone(), version: v.to_owned() })
             }
         }
     }
@@ -467,26 +411,18 @@ impl Store {
     /// columns are recomputed from the draft's values first.
     pub fn save(&mut self, name: &str, mut draft: Draft) -> Result<DatasetManifest> {
         if name.trim().is_empty() {
-            return Err(StoreError::BadChoice {
-                reason: "the table needs a name".into(),
-            });
+            return Err(StoreError::BadChoice { reason: "the table needs a name".into() });
         }
         draft.recompute()?;
         draft.check()?;
         let id = self.resolve_dataset(name).unwrap_or_else(|_| slug(name));
-        let version = self
-            .datasets
-            .get(&id)
-            .and_then(|v| v.last())
-            .map_or(1, |m| m.version + 1);
+        let version = self.datasets.get(&id).and_then(|v| v.last()).map_or(1, |m| m.version + 1);
         let dir = self.root.join("datasets").join(&id);
         ensure_dir(&dir)?;
         let data_file = version_file(version, "arrow");
         // Record batches of bounded size: zero-copy slices stacked as chunks.
         let mut frame = draft.frame.clone();
-        if frame.height() > BATCH_ROWS
-            && frame.first_col_n_chunks() != frame.height().div_ceil(BATCH_ROWS)
-        {
+        if frame.height() > BATCH_ROWS && frame.first_col_n_chunks() != frame.height().div_ceil(BATCH_ROWS) {
             let mut batched = frame.slice(0, BATCH_ROWS);
             let mut offset = BATCH_ROWS;
             while offset < frame.height() {
@@ -532,18 +468,10 @@ impl Store {
     /// exclusions. Returns the new version, or `None` when it is up to date or not a join.
     pub fn refresh(&mut self, dataset: &str) -> Result<Option<DatasetManifest>> {
         let current = self.manifest(dataset)?.clone();
-        let Origin::Join {
-            left,
-            right,
-            join: kind,
-        } = &current.origin
-        else {
+        let Origin::Join { left, right, join: kind } = &current.origin else {
             return Ok(None);
         };
-        let base = |v: &str| {
-            v.rsplit_once('@')
-                .map_or(v.to_owned(), |(d, _)| d.to_owned())
-        };
+        let base = |v: &str| v.rsplit_once('@').map_or(v.to_owned(), |(d, _)| d.to_owned());
         let new_left = self.manifest(&base(left))?.version_id.clone();
         let new_right = self.manifest(&base(right))?.version_id.clone();
         if new_left == *left && new_right == *right {
@@ -551,20 +479,15 @@ impl Store {
         }
         let joined = join(&self.load(&new_left)?, &self.load(&new_right)?, *kind)?;
         let Some(mut draft) = joined.draft else {
-            return Err(StoreError::Join {
-                reason: "the new source versions repeat keys".into(),
-            });
+            return Err(StoreError::Join { reason: "the new source versions repeat keys".into() });
         };
         for c in &mut draft.columns {
             if let Some(old) = current.column(&c.meta.column) {
                 c.meta = old.meta.clone();
             }
         }
-        let present: std::collections::HashSet<String> = draft
-            .columns
-            .iter()
-            .map(|c| c.meta.column.clone())
-            .collect();
+        let present: std::collections::HashSet<String> =
+            draft.columns.iter().map(|c| c.meta.column.clone()).collect();
         for d in &current.derived {
             if !draft.derived.iter().any(|x| x.name == d.name) && !present.contains(&d.name) {
                 draft.derived.push(d.clone());
@@ -572,9 +495,8 @@ impl Store {
         }
         // Exclusions: those the new left version carries, plus this table's own for rows
         // still present.
-        let keys: std::collections::HashSet<String> = crate::frame::keys(&draft.frame, &draft.key)?
-            .into_iter()
-            .collect();
+        let keys: std::collections::HashSet<String> =
+            crate::frame::keys(&draft.frame, &draft.key)?.into_iter().collect();
         for e in &current.exclusions {
             if keys.contains(&e.key) && !draft.exclusions.iter().any(|x| x.key == e.key) {
                 draft.exclusions.push(e.clone());
@@ -598,9 +520,7 @@ impl Store {
 
     /// One saved analysis.
     pub fn analysis(&self, id: &str) -> Result<&SavedAnalysis> {
-        self.analyses
-            .get(id)
-            .ok_or_else(|| StoreError::UnknownAnalysis { id: id.to_owned() })
+        self.analyses.get(id).ok_or_else(|| StoreError::UnknownAnalysis { id: id.to_owned() })
     }
 
     fn new_id(&self, analysis: &SavedAnalysis) -> String {
@@ -608,9 +528,7 @@ impl Store {
         static N: AtomicU64 = AtomicU64::new(0);
         loop {
             let mut h = Sha256::new();
-            let nanos = SystemTime::now()
-                .duration_since(UNIX_EPOCH)
-                .map_or(0, |d| d.as_nanos());
+            let nanos = SystemTime::now().duration_since(UNIX_EPOCH).map_or(0, |d| d.as_nanos());
             h.update(nanos.to_le_bytes());
             h.update(std::process::id().to_le_bytes());
             h.update(N.fetch_add(1, Ordering::Relaxed).to_le_bytes());
@@ -632,10 +550,7 @@ impl Store {
             return Err(bad("it needs a title".into()));
         }
         self.manifest(&analysis.dataset_version).map_err(|e| {
-            bad(format!(
-                "its dataset version {:?} is not stored ({e})",
-                analysis.dataset_version
-            ))
+            bad(format!("its dataset version {:?} is not stored ({e})", analysis.dataset_version))
         })?;
         if !analysis.dataset_version.contains('@') {
             return Err(bad(format!(
@@ -643,28 +558,17 @@ impl Store {
                 analysis.dataset_version, analysis.dataset_version
             )));
         }
-        analysis
-            .model_spec
-            .validate()
-            .map_err(|e| bad(format!("its model spec is invalid ({e})")))?;
+        analysis.model_spec.validate().map_err(|e| bad(format!("its model spec is invalid ({e})")))?;
         if analysis.cv.folds < 2 || analysis.cv.seeds.is_empty() {
-            return Err(bad(
-                "cross-validation needs at least 2 folds and one seed".into()
-            ));
+            return Err(bad("cross-validation needs at least 2 folds and one seed".into()));
         }
         if analysis.id.is_empty() {
             analysis.id = self.new_id(&analysis);
         } else if !SavedAnalysis::is_valid_id(&analysis.id) {
-            return Err(bad(format!(
-                "{:?} is not a valid id (letters, digits, - and _ only)",
-                analysis.id
-            )));
+            return Err(bad(format!("{:?} is not a valid id (letters, digits, - and _ only)", analysis.id)));
         }
         let now = now_unix();
-        analysis.created_unix = self
-            .analyses
-            .get(&analysis.id)
-            .map_or(now, |a| a.created_unix);
+        analysis.created_unix = self.analyses.get(&analysis.id).map_or(now, |a| a.created_unix);
         analysis.updated_unix = now;
         let dir = self.root.join("analyses");
         write_atomic(&dir, &format!("{}.json", analysis.id), |w| {
@@ -692,12 +596,9 @@ impl Store {
             Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
             _ => PathBuf::from("."),
         };
-        let name = path
-            .file_name()
-            .map(|n| n.to_string_lossy().into_owned())
-            .ok_or_else(|| StoreError::BadChoice {
-                reason: format!("{} is not a file name", path.display()),
-            })?;
+        let name = path.file_name().map(|n| n.to_string_lossy().into_owned()).ok_or_else(|| {
+            StoreError::BadChoice { reason: format!("{} is not a file name", path.display()) }
+        })?;
         write_atomic(&dir, &name, |w| {
             serde_json::to_writer_pretty(w, analysis).map_err(|e| StoreError::Frame(e.to_string()))
         })
@@ -708,28 +609,15 @@ impl Store {
     pub fn import_analysis(&mut self, path: &Path) -> Result<SavedAnalysis> {
         let meta = std::fs::metadata(path).map_err(|e| StoreError::io("read", path, e))?;
         if meta.len() > MAX_ANALYSIS_BYTES {
-            return Err(StoreError::TooLarge {
-                bytes: meta.len(),
-                limit: MAX_ANALYSIS_BYTES,
-            });
+            return Err(StoreError::TooLarge { bytes: meta.len(), limit: MAX_ANALYSIS_BYTES });
         }
         let bytes = std::fs::read(path).map_err(|e| StoreError::io("read", path, e))?;
-        let mut analysis: SavedAnalysis =
-            serde_json::from_slice(&bytes).map_err(|e| StoreError::BadDocument {
-                path: path.to_path_buf(),
-                reason: e.to_string(),
-            })?;
+        let mut analysis: SavedAnalysis = serde_json::from_slice(&bytes)
+            .map_err(|e| StoreError::BadDocument { path: path.to_path_buf(), reason: e.to_string() })?;
         analysis.check_schema()?;
         if let Some(existing) = self.analyses.get(&analysis.id) {
-            let same = SavedAnalysis {
-                created_unix: 0,
-                updated_unix: 0,
-                ..existing.clone()
-            } == SavedAnalysis {
-                created_unix: 0,
-                updated_unix: 0,
-                ..analysis.clone()
-            };
+            let same = SavedAnalysis { created_unix: 0, updated_unix: 0, ..existing.clone() }
+                == SavedAnalysis { created_unix: 0, updated_unix: 0, ..analysis.clone() };
             if !same {
                 analysis.id = String::new();
             }

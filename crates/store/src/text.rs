@@ -43,10 +43,7 @@ pub(crate) struct Decoded<'a> {
 
 /// The 1-based line holding byte offset `at`.
 pub(crate) fn line_of(bytes: &[u8], at: usize) -> usize {
-    1 + bytes[..at.min(bytes.len())]
-        .iter()
-        .filter(|&&b| b == b'\n')
-        .count()
+    1 + bytes[..at.min(bytes.len())].iter().filter(|&&b| b == b'\n').count()
 }
 
 /// Decodes file bytes to UTF-8 text following the chosen encoding.
@@ -55,10 +52,7 @@ pub(crate) fn decode(bytes: &[u8], encoding: Encoding) -> Result<Decoded<'_>> {
         Encoding::Windows1252 => {
             let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
             let (text, _) = encoding_rs::WINDOWS_1252.decode_without_bom_handling(body);
-            Ok(Decoded {
-                text,
-                encoding: "windows-1252",
-            })
+            Ok(Decoded { text, encoding: "windows-1252" })
         }
         Encoding::Latin1 => {
             let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
@@ -68,10 +62,7 @@ pub(crate) fn decode(bytes: &[u8], encoding: Encoding) -> Result<Decoded<'_>> {
             } else {
                 Cow::Owned(body.iter().map(|&b| char::from(b)).collect())
             };
-            Ok(Decoded {
-                text,
-                encoding: "latin1",
-            })
+            Ok(Decoded { text, encoding: "latin1" })
         }
         Encoding::Auto => {
             if let Some(body) = bytes.strip_prefix(b"\xFF\xFE") {
@@ -85,35 +76,22 @@ pub(crate) fn decode(bytes: &[u8], encoding: Encoding) -> Result<Decoded<'_>> {
                 None => (bytes, "utf-8"),
             };
             match std::str::from_utf8(body) {
-                Ok(text) => Ok(Decoded {
-                    text: Cow::Borrowed(text),
-                    encoding: name,
-                }),
+                Ok(text) => Ok(Decoded { text: Cow::Borrowed(text), encoding: name }),
                 Err(e) => {
                     let at = e.valid_up_to();
-                    Err(StoreError::InvalidUtf8 {
-                        line: line_of(body, at),
-                        byte: body[at],
-                    })
+                    Err(StoreError::InvalidUtf8 { line: line_of(body, at), byte: body[at] })
                 }
             }
         }
     }
 }
 
-fn utf16<'a>(
-    body: &'a [u8],
-    enc: &'static encoding_rs::Encoding,
-    name: &'static str,
-) -> Result<Decoded<'a>> {
+fn utf16<'a>(body: &'a [u8], enc: &'static encoding_rs::Encoding, name: &'static str) -> Result<Decoded<'a>> {
     let (text, had_errors) = enc.decode_without_bom_handling(body);
     if had_errors {
         let bad = text.find('\u{FFFD}').unwrap_or(text.len());
         let line = 1 + text[..bad].matches('\n').count();
         return Err(StoreError::InvalidUtf16 { line });
     }
-    Ok(Decoded {
-        text: Cow::Owned(text.into_owned()),
-        encoding: name,
-    })
+    Ok(Decoded { text: Cow::Owned(text.into_owned()), encoding: name })
 }

@@ -25,9 +25,7 @@ pub(crate) struct Book {
 }
 
 fn u16_at(b: &[u8], at: usize) -> Option<u64> {
-    Some(u64::from(u16::from_le_bytes(
-        b.get(at..at + 2)?.try_into().ok()?,
-    )))
+    Some(u64::from(u16::from_le_bytes(b.get(at..at + 2)?.try_into().ok()?)))
 }
 fn u64_at(b: &[u8], at: usize) -> Option<u64> {
     Some(u64::from_le_bytes(b.get(at..at + 8)?.try_into().ok()?))
@@ -40,9 +38,7 @@ fn declared_entries(b: &[u8]) -> Option<u64> {
     const ZIP64_EOCD: [u8; 4] = [0x50, 0x4b, 0x06, 0x06];
     // The record is 22 bytes plus a comment of at most 65,535 bytes, at the very end.
     let lowest = b.len().saturating_sub(22 + 65_535);
-    let at = (lowest..=b.len().saturating_sub(22))
-        .rev()
-        .find(|&i| b.get(i..i + 4) == Some(&EOCD[..]))?;
+    let at = (lowest..=b.len().saturating_sub(22)).rev().find(|&i| b.get(i..i + 4) == Some(&EOCD[..]))?;
     let entries = u16_at(b, at + 10)?;
     if entries != 0xFFFF {
         return Some(entries);
@@ -61,8 +57,8 @@ fn declared_entries(b: &[u8]) -> Option<u64> {
 /// Checks a zip container against the limits without decompressing anything.
 pub fn check_zip(bytes: &[u8], limits: &ZipLimits) -> Result<()> {
     let bad = |reason: String| StoreError::Workbook { reason };
-    let declared = declared_entries(bytes)
-        .ok_or_else(|| bad("the zip container has no central directory".into()))?;
+    let declared =
+        declared_entries(bytes).ok_or_else(|| bad("the zip container has no central directory".into()))?;
     if declared > limits.max_entries as u64 {
         return Err(StoreError::ZipTooManyEntries {
             entries: usize::try_from(declared).unwrap_or(usize::MAX),
@@ -72,47 +68,32 @@ pub fn check_zip(bytes: &[u8], limits: &ZipLimits) -> Result<()> {
     let archive = zip::ZipArchive::new(Cursor::new(bytes))
         .map_err(|e| bad(format!("the zip container is damaged ({e})")))?;
     if archive.len() > limits.max_entries {
-        return Err(StoreError::ZipTooManyEntries {
-            entries: archive.len(),
-            limit: limits.max_entries,
-        });
+        return Err(StoreError::ZipTooManyEntries { entries: archive.len(), limit: limits.max_entries });
     }
     if archive.has_duplicate_names() {
-        return Err(bad(
-            "the zip container holds two packed files with the same name".into(),
-        ));
+        return Err(bad("the zip container holds two packed files with the same name".into()));
     }
     let mut total: u64 = 0;
     let mut worst: Option<(String, u64)> = None;
     for i in 0..archive.len() {
-        let entry = archive
-            .by_index_data(i)
-            .map_err(|e| bad(format!("the zip container is damaged ({e})")))?;
+        let entry =
+            archive.by_index_data(i).map_err(|e| bad(format!("the zip container is damaged ({e})")))?;
         let size = entry.size();
         total = total.saturating_add(size);
         if size > limits.ratio_floor_bytes {
             let ratio = size / entry.compressed_size().max(1);
             if ratio > limits.max_ratio && worst.as_ref().is_none_or(|(_, r)| ratio > *r) {
-                let name = entry
-                    .name()
-                    .map(|n| n.into_owned())
-                    .unwrap_or_else(|_| format!("entry {}", i + 1));
+                let name =
+                    entry.name().map(|n| n.into_owned()).unwrap_or_else(|_| format!("entry {}", i + 1));
                 worst = Some((name, ratio));
             }
         }
     }
     if total > limits.max_unpacked_bytes {
-        return Err(StoreError::ZipTooLarge {
-            bytes: total,
-            limit: limits.max_unpacked_bytes,
-        });
+        return Err(StoreError::ZipTooLarge { bytes: total, limit: limits.max_unpacked_bytes });
     }
     if let Some((entry, ratio)) = worst {
-        return Err(StoreError::ZipRatio {
-            entry,
-            ratio,
-            limit: limits.max_ratio,
-        });
+        return Err(StoreError::ZipRatio { entry, ratio, limit: limits.max_ratio });
     }
     Ok(())
 }
@@ -149,11 +130,7 @@ fn float_text(f: f64) -> String {
     if f.fract() == 0.0 && f.abs() < 1e15 {
         return format!("{}", f as i64);
     }
-    if f != 0.0 && (f.abs() >= 1e15 || f.abs() < 1e-6) {
-        format!("{f:e}")
-    } else {
-        format!("{f}")
-    }
+    if f != 0.0 && (f.abs() >= 1e15 || f.abs() < 1e-6) { format!("{f:e}") } else { format!("{f}") }
 }
 
 /// Reads the chosen (or first) worksheet after the zip guard.
@@ -163,58 +140,38 @@ pub(crate) fn read_sheet(bytes: &[u8], options: &ImportOptions) -> Result<Book> 
     // plain refusal instead of taking the process down.
     let read = catch_unwind(AssertUnwindSafe(|| read_sheet_inner(bytes, options)));
     read.unwrap_or_else(|_| {
-        Err(StoreError::Workbook {
-            reason: "the workbook's contents are malformed".into(),
-        })
+        Err(StoreError::Workbook { reason: "the workbook's contents are malformed".into() })
     })
 }
 
 fn read_sheet_inner(bytes: &[u8], options: &ImportOptions) -> Result<Book> {
-    let mut book: Xlsx<_> =
-        calamine::open_workbook_from_rs(Cursor::new(bytes)).map_err(|e: calamine::XlsxError| {
-            StoreError::Workbook {
-                reason: e.to_string(),
-            }
-        })?;
+    let mut book: Xlsx<_> = calamine::open_workbook_from_rs(Cursor::new(bytes))
+        .map_err(|e: calamine::XlsxError| StoreError::Workbook { reason: e.to_string() })?;
     let sheets = book.sheet_names();
     let sheet = match &options.sheet {
         Some(s) => {
             if !sheets.iter().any(|n| n == s) {
-                return Err(StoreError::NoSuchSheet {
-                    sheet: s.clone(),
-                    available: sheets.join(", "),
-                });
+                return Err(StoreError::NoSuchSheet { sheet: s.clone(), available: sheets.join(", ") });
             }
             s.clone()
         }
         None => sheets
             .first()
             .cloned()
-            .ok_or_else(|| StoreError::Workbook {
-                reason: "it has no worksheets".into(),
-            })?,
+            .ok_or_else(|| StoreError::Workbook { reason: "it has no worksheets".into() })?,
     };
-    let range = book
-        .worksheet_range(&sheet)
-        .map_err(|e| StoreError::Workbook {
-            reason: e.to_string(),
-        })?;
+    let range = book.worksheet_range(&sheet).map_err(|e| StoreError::Workbook { reason: e.to_string() })?;
     let Some((r0, c0)) = range.start() else {
         return Err(StoreError::EmptySheet { sheet });
     };
     let (height, width) = range.get_size();
     if width > options.limits.max_columns {
-        return Err(StoreError::TooManyColumns {
-            found: width,
-            limit: options.limits.max_columns,
-        });
+        return Err(StoreError::TooManyColumns { found: width, limit: options.limits.max_columns });
     }
     let max_cell = options.limits.max_cell_bytes;
     let header_row = r0 as usize + 1;
     let mut rows_iter = range.rows();
-    let header_cells = rows_iter.next().ok_or_else(|| StoreError::EmptySheet {
-        sheet: sheet.clone(),
-    })?;
+    let header_cells = rows_iter.next().ok_or_else(|| StoreError::EmptySheet { sheet: sheet.clone() })?;
     let mut header = Vec::with_capacity(width);
     for (i, cell) in header_cells.iter().enumerate() {
         let (text, _) = cell_text(cell);
@@ -250,10 +207,7 @@ fn read_sheet_inner(bytes: &[u8], options: &ImportOptions) -> Result<Book> {
     let mut notes = Vec::new();
     for (c, is_date) in date_cols.iter().enumerate() {
         if *is_date {
-            notes.push(format!(
-                "column {:?} holds dates; they are kept as text (year-month-day)",
-                header[c]
-            ));
+            notes.push(format!("column {:?} holds dates; they are kept as text (year-month-day)", header[c]));
         }
     }
     // Formulas: their positions in sheet coordinates, mapped onto the grid.
@@ -278,15 +232,5 @@ fn read_sheet_inner(bytes: &[u8], options: &ImportOptions) -> Result<Book> {
         }
     }
     formulas.sort_by_key(|f| (f.column, f.row));
-    Ok(Book {
-        grid: CellGrid {
-            header,
-            header_row,
-            rows,
-        },
-        sheet,
-        sheets,
-        formulas,
-        notes,
-    })
+    Ok(Book { grid: CellGrid { header, header_row, rows }, sheet, sheets, formulas, notes })
 }

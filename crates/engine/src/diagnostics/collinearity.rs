@@ -49,12 +49,16 @@ pub fn pearson_correlation(names: &[String], columns: &[&[f64]]) -> CheckOutcome
         .collect();
     let norms: Vec<f64> = centred.iter().map(|c| super::sum_sq(c).sqrt()).collect();
     if let Some(j) = norms.iter().position(|&s| !positive(s)) {
-        return CheckOutcome::Unavailable(format!("{} does not vary, so its correlations are undefined", names[j]));
+        return CheckOutcome::Unavailable(format!(
+            "{} does not vary, so its correlations are undefined",
+            names[j]
+        ));
     }
     let mut matrix = vec![vec![1.0; k]; k];
     for a in 0..k {
         for b in a + 1..k {
-            let r = (crate::linalg::dot_dd(&centred[a], &centred[b]) / (norms[a] * norms[b])).clamp(-1.0, 1.0);
+            let r =
+                (crate::linalg::dot_dd(&centred[a], &centred[b]) / (norms[a] * norms[b])).clamp(-1.0, 1.0);
             matrix[a][b] = r;
             matrix[b][a] = r;
         }
@@ -282,7 +286,13 @@ pub fn condition_diagnostics(x: &Matrix, names: &[String]) -> CheckOutcome<Condi
     let proportions: Vec<Vec<f64>> =
         phi.iter().map(|row| row.iter().zip(&totals).map(|(a, t)| a / t).collect()).collect();
     let verdict = condition_verdict(names, &indices, &proportions);
-    CheckOutcome::Ok(ConditionDiagnostics { names: names.to_vec(), singular_values, indices, proportions, verdict })
+    CheckOutcome::Ok(ConditionDiagnostics {
+        names: names.to_vec(),
+        singular_values,
+        indices,
+        proportions,
+        verdict,
+    })
 }
 
 fn condition_verdict(names: &[String], indices: &[f64], proportions: &[Vec<f64>]) -> Verdict {

@@ -222,11 +222,13 @@ fn thresholds(n: usize, p: usize, rule: SizeRule, alpha: f64) -> InfluenceThresh
         ),
         SizeRule::SmallOrMedium => (
             false,
-            "small or medium data (set by the analyst): cut-offs per Kutner et al. (2004), section 10.4".to_owned(),
+            "small or medium data (set by the analyst): cut-offs per Kutner et al. (2004), section 10.4"
+                .to_owned(),
         ),
-        SizeRule::Large => {
-            (true, "large data (set by the analyst): cut-offs per Kutner et al. (2004), section 10.4".to_owned())
-        }
+        SizeRule::Large => (
+            true,
+            "large data (set by the analyst): cut-offs per Kutner et al. (2004), section 10.4".to_owned(),
+        ),
     };
     InfluenceThresholds {
         hat: 2.0 * pf / nf,
@@ -292,9 +294,11 @@ pub(crate) fn influence_check(w: &Working, opts: &CheckOptions) -> CheckOutcome<
             bonf = Some((up * n as f64).min(1.0));
         }
         let dffits_flag = dffits.is_some_and(|v: f64| v.abs() > th.dffits);
-        let dfbetas_flag = dfbetas.as_ref().is_some_and(|v: &Vec<f64>| v.iter().any(|b| b.abs() > th.dfbetas));
+        let dfbetas_flag =
+            dfbetas.as_ref().is_some_and(|v: &Vec<f64>| v.iter().any(|b| b.abs() > th.dfbetas));
         let outlier_flag = bonf.is_some_and(|b| b < th.bonferroni_alpha);
-        let flagged = band == Some(InfluenceBand::Major) || hat_flag || dffits_flag || dfbetas_flag || outlier_flag;
+        let flagged =
+            band == Some(InfluenceBand::Major) || hat_flag || dffits_flag || dfbetas_flag || outlier_flag;
         rows.push(InfluenceRow {
             key: w.keys[i].clone(),
             hat: h,
@@ -331,7 +335,8 @@ fn influence_verdict(rows: &[InfluenceRow], th: &InfluenceThresholds) -> Verdict
         fmt4(th.dfbetas),
         th.bonferroni_alpha
     );
-    let test = "Influence measures (Cook's distance, leverage, DFFITS, DFBETAS) and the Bonferroni outlier test";
+    let test =
+        "Influence measures (Cook's distance, leverage, DFFITS, DFBETAS) and the Bonferroni outlier test";
     let list = |v: &[&str]| -> String {
         let names: Vec<String> = v.iter().take(5).map(|s| (*s).to_owned()).collect();
         let more = if v.len() > 5 { format!(" and {} more", v.len() - 5) } else { String::new() };
@@ -351,7 +356,10 @@ fn influence_verdict(rows: &[InfluenceRow], th: &InfluenceThresholds) -> Verdict
             max_cook,
             Some(min_bonf),
             threshold,
-            format!("{}; compare the refit without the flagged rows before relying on the model.", parts.join("; ")),
+            format!(
+                "{}; compare the refit without the flagged rows before relying on the model.",
+                parts.join("; ")
+            ),
         );
     }
     if !flagged.is_empty() {
@@ -472,7 +480,9 @@ pub(crate) fn refit_without_flagged(
 ) -> CheckOutcome<Refit> {
     let inf = match influence {
         CheckOutcome::Ok(v) => v,
-        CheckOutcome::Unavailable(r) => return CheckOutcome::Unavailable(format!("no influence measures: {r}")),
+        CheckOutcome::Unavailable(r) => {
+            return CheckOutcome::Unavailable(format!("no influence measures: {r}"));
+        }
     };
     let removed = inf.flagged_keys();
     if removed.is_empty() {
@@ -481,13 +491,17 @@ pub(crate) fn refit_without_flagged(
     let design = match fit.design().without_rows(&removed) {
         Ok(d) => d,
         Err(e) => {
-            return CheckOutcome::Unavailable(format!("the model cannot be refitted without the flagged rows: {e}"));
+            return CheckOutcome::Unavailable(format!(
+                "the model cannot be refitted without the flagged rows: {e}"
+            ));
         }
     };
     let refit = match Fit::new(&design, &opts.fit) {
         Ok(f) => f,
         Err(e) => {
-            return CheckOutcome::Unavailable(format!("the model cannot be refitted without the flagged rows: {e}"));
+            return CheckOutcome::Unavailable(format!(
+                "the model cannot be refitted without the flagged rows: {e}"
+            ));
         }
     };
     let wr = Working::from_fit(&refit);

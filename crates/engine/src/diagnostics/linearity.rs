@@ -71,7 +71,10 @@ pub(crate) fn residuals_vs_predictors(w: &Working) -> Vec<PredictorResiduals> {
     }
     w.predictor_columns()
         .into_iter()
-        .map(|j| PredictorResiduals { name: w.names[j].clone(), points: points(&w.keys, w.x_raw.column(j), &w.resid) })
+        .map(|j| PredictorResiduals {
+            name: w.names[j].clone(),
+            points: points(&w.keys, w.x_raw.column(j), &w.resid),
+        })
         .collect()
 }
 
@@ -267,7 +270,11 @@ pub(crate) fn reset_check(w: &Working, alpha: f64) -> CheckOutcome<Reset> {
             f,
             p,
             alpha,
-            &format!("No evidence of curvature the straight-line terms miss (F = {}, p = {}).", fmt4(f), fmt4(p)),
+            &format!(
+                "No evidence of curvature the straight-line terms miss (F = {}, p = {}).",
+                fmt4(f),
+                fmt4(p)
+            ),
             &format!(
                 "The model misses curvature or an interaction (F = {}, p = {}); look at the component-plus-residual plots and the transformation search.",
                 fmt4(f),

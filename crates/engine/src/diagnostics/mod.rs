@@ -26,7 +26,9 @@ pub use linearity::{AddedVariable, ComponentResidual, PlotPoint, PredictorResidu
 pub use normality::{QqPlot, QqPoint, ShapiroWilk};
 pub use residuals::ResidualTable;
 pub use robust::{RobustErrors, RowsGuard};
-pub use transform::{BoxTidwell, CandidateSummary, PowerFamily, PowerProfile, SearchCandidate, TransformSearch};
+pub use transform::{
+    BoxTidwell, CandidateSummary, PowerFamily, PowerProfile, SearchCandidate, TransformSearch,
+};
 pub use variance::{BreuschPagan, BrownForsythe};
 pub use verdict::{Verdict, VerdictLevel};
 
@@ -147,7 +149,10 @@ impl CheckOptions {
     /// Sets the significance threshold of every test; must lie strictly between 0 and 0.5.
     pub fn with_alpha(mut self, alpha: f64) -> Result<Self> {
         if !(alpha > 0.0 && alpha < 0.5) {
-            return Err(bad_option("alpha", format!("must lie strictly between 0 and 0.5; {alpha} was given")));
+            return Err(bad_option(
+                "alpha",
+                format!("must lie strictly between 0 and 0.5; {alpha} was given"),
+            ));
         }
         self.alpha = alpha;
         Ok(self)
@@ -509,8 +514,11 @@ impl Working {
     /// Builds the working quantities from a fit.
     pub(crate) fn from_fit(fit: &Fit) -> Working {
         let d = fit.design();
-        let intercept =
-            if d.has_intercept() { d.column_names().iter().position(|c| c == crate::INTERCEPT_LABEL) } else { None };
+        let intercept = if d.has_intercept() {
+            d.column_names().iter().position(|c| c == crate::INTERCEPT_LABEL)
+        } else {
+            None
+        };
         let mut w = Working::assemble(
             d.x().clone(),
             d.y().to_vec(),
@@ -626,7 +634,9 @@ impl Working {
             ));
         }
         if self.exact {
-            return Some("the model fits every row exactly, so its residuals carry no information".to_owned());
+            return Some(
+                "the model fits every row exactly, so its residuals carry no information".to_owned(),
+            );
         }
         None
     }
@@ -654,7 +664,11 @@ pub(crate) fn scale_by_weights(x: &Matrix, y: &[f64], weights: Option<&[f64]>) -
 /// when there are no more rows than columns.
 pub(crate) fn least_squares(x: &Matrix, y: &[f64]) -> std::result::Result<(PivotedQr, LeastSquares), String> {
     if x.nrows() <= x.ncols() {
-        return Err(format!("{} rows are not enough for a regression with {} coefficients", x.nrows(), x.ncols()));
+        return Err(format!(
+            "{} rows are not enough for a regression with {} coefficients",
+            x.nrows(),
+            x.ncols()
+        ));
     }
     let qr = PivotedQr::factor(x, &QrOptions::default());
     if qr.rank() < x.ncols() {

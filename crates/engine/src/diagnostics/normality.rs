@@ -125,7 +125,9 @@ fn shapiro_w_p(sample: &[f64]) -> std::result::Result<(f64, f64), String> {
         let a1 = poly(&C1, rsn) - m[0] / ssumm2;
         let (i1, fac) = if n > 5 {
             let a2 = -m[1] / ssumm2 + poly(&C2, rsn);
-            let fac = ((summ2 - 2.0 * m[0] * m[0] - 2.0 * m[1] * m[1]) / (1.0 - 2.0 * a1 * a1 - 2.0 * a2 * a2)).sqrt();
+            let fac = ((summ2 - 2.0 * m[0] * m[0] - 2.0 * m[1] * m[1])
+                / (1.0 - 2.0 * a1 * a1 - 2.0 * a2 * a2))
+                .sqrt();
             a[1] = a2;
             (2, fac)
         } else {

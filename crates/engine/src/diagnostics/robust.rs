@@ -109,7 +109,8 @@ fn robust_verdict(w: &Working, classical: &[f64], hc3: &[f64], alpha: f64) -> Ve
         }
     }
     let test = "HC3 standard errors beside the classical ones (MacKinnon & White 1985)";
-    let threshold = format!("a coefficient's p-value crossing {alpha} when HC3 errors replace the classical ones");
+    let threshold =
+        format!("a coefficient's p-value crossing {alpha} when HC3 errors replace the classical ones");
     if flips.is_empty() {
         Verdict::new(
             VerdictLevel::Clear,
@@ -175,8 +176,9 @@ pub(crate) fn rows_guard(w: &Working) -> CheckOutcome<RowsGuard> {
         return CheckOutcome::Unavailable("the model has no predictors".to_owned());
     }
     let ratio = w.n as f64 / k as f64;
-    let threshold =
-        format!("fewer than {ROWS_PER_PREDICTOR} rows per predictor column (common practice, no published source)");
+    let threshold = format!(
+        "fewer than {ROWS_PER_PREDICTOR} rows per predictor column (common practice, no published source)"
+    );
     let test = "Rows per predictor";
     let verdict = if w.n < ROWS_PER_PREDICTOR * k {
         Verdict::new(

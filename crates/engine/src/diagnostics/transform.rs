@@ -21,7 +21,9 @@
 //!   605–610): ŷ = (1/m)·Σᵢ g⁻¹(ẑ + eᵢ) over the m training residuals. The search reports; it
 //!   never changes the model.
 
-use super::{CheckOptions, CheckOutcome, Named, Verdict, VerdictLevel, Working, fmt4, least_squares, positive};
+use super::{
+    CheckOptions, CheckOutcome, Named, Verdict, VerdictLevel, Working, fmt4, least_squares, positive,
+};
 use crate::dist;
 use crate::linalg::{PivotedQr, QrOptions};
 use crate::matrix::Matrix;
@@ -239,7 +241,12 @@ fn crossing(f: &dyn Fn(f64) -> Option<f64>, level: f64, mut inside: f64, mut out
 }
 
 /// The response power profile of `y` regressed on `x` over `range` (see the module notes).
-pub fn power_profile(x: &Matrix, y: &[f64], weights: Option<&[f64]>, range: (f64, f64)) -> CheckOutcome<PowerProfile> {
+pub fn power_profile(
+    x: &Matrix,
+    y: &[f64],
+    weights: Option<&[f64]>,
+    range: (f64, f64),
+) -> CheckOutcome<PowerProfile> {
     let prof = match Profiler::new(x, y, weights) {
         Ok(p) => p,
         Err(e) => return CheckOutcome::Unavailable(e),
@@ -259,14 +266,17 @@ pub fn power_profile(x: &Matrix, y: &[f64], weights: Option<&[f64]>, range: (f64
     }
     if lambdas.len() < 3 {
         return CheckOutcome::Unavailable(
-            "the profile is undefined over most of the range (the response is fitted exactly or overflows)".to_owned(),
+            "the profile is undefined over most of the range (the response is fitted exactly or overflows)"
+                .to_owned(),
         );
     }
     let kmax = (0..llf.len()).max_by(|&a, &b| llf[a].total_cmp(&llf[b])).unwrap_or(0);
     let at_edge = kmax == 0 || kmax == llf.len() - 1;
-    let lambda_hat = if at_edge { lambdas[kmax] } else { golden_max(&f, lambdas[kmax - 1], lambdas[kmax + 1]) };
+    let lambda_hat =
+        if at_edge { lambdas[kmax] } else { golden_max(&f, lambdas[kmax - 1], lambdas[kmax + 1]) };
     let llf_max = f(lambda_hat).unwrap_or(llf[kmax]).max(llf[kmax]);
-    let lambda_hat = if f(lambda_hat).unwrap_or(f64::NEG_INFINITY) >= llf[kmax] { lambda_hat } else { lambdas[kmax] };
+    let lambda_hat =
+        if f(lambda_hat).unwrap_or(f64::NEG_INFINITY) >= llf[kmax] { lambda_hat } else { lambdas[kmax] };
     let level = llf_max - 0.5 * dist::chi2_quantile(0.95, 1.0);
     // Walk out from the maximum on the grid to the first point below the level on each side.
     let lower = (0..kmax)
@@ -319,7 +329,9 @@ fn profile_verdict(
     let hi = interval.1.map_or(format!("above {}", fmt4(range.1)), fmt4);
     let test = match family {
         PowerFamily::BoxCox => "Box-Cox profile likelihood of the response power (Box & Cox 1964)",
-        PowerFamily::YeoJohnson => "Yeo-Johnson profile likelihood of the response power (Yeo & Johnson 2000)",
+        PowerFamily::YeoJohnson => {
+            "Yeo-Johnson profile likelihood of the response power (Yeo & Johnson 2000)"
+        }
     };
     let threshold = "1 (no transformation) inside the 95% likelihood interval";
     let lo_v = interval.0.unwrap_or(f64::NEG_INFINITY);
@@ -342,7 +354,10 @@ fn profile_verdict(
             format!("; {} of the response is the simple choice inside the interval", power_words(p))
         }
         (PowerFamily::YeoJohnson, Some(p)) => {
-            format!("; the Yeo-Johnson transform with power {} is the simple choice inside the interval", fmt4(p))
+            format!(
+                "; the Yeo-Johnson transform with power {} is the simple choice inside the interval",
+                fmt4(p)
+            )
         }
         (_, None) => "; no simple power lies inside the interval".to_owned(),
     };
@@ -459,7 +474,10 @@ pub fn box_tidwell(
         ));
     }
     if n < p + 2 {
-        return CheckOutcome::Unavailable(format!("Box-Tidwell needs at least {} rows; there are {n}", p + 2));
+        return CheckOutcome::Unavailable(format!(
+            "Box-Tidwell needs at least {} rows; there are {n}",
+            p + 2
+        ));
     }
     let sw: Vec<f64> = match weights {
         Some(w) => w.iter().map(|v| v.sqrt()).collect(),
@@ -533,10 +551,23 @@ pub fn box_tidwell(
             t0,
             Some(score_p),
             format!("p below {alpha_level} counts as evidence of curvature"),
-            format!("No evidence that {name} needs a power transformation (t = {}, p = {}).", fmt4(t0), fmt4(score_p)),
+            format!(
+                "No evidence that {name} needs a power transformation (t = {}, p = {}).",
+                fmt4(t0),
+                fmt4(score_p)
+            ),
         )
     };
-    CheckOutcome::Ok(BoxTidwell { one_step, estimate, iterations, converged, score_t: t0, score_df, score_p, verdict })
+    CheckOutcome::Ok(BoxTidwell {
+        one_step,
+        estimate,
+        iterations,
+        converged,
+        score_t: t0,
+        score_df,
+        score_p,
+        verdict,
+    })
 }
 
 /// The member of [`LADDER`] nearest a power.
@@ -550,7 +581,10 @@ pub(crate) fn box_tidwell_checks(w: &Working, alpha: f64) -> Vec<Named<BoxTidwel
         .into_iter()
         .filter(|&j| w.x_raw.column(j).iter().all(|&v| v > 0.0))
         .map(|j| {
-            Named::new(w.names[j].clone(), box_tidwell(&w.x_raw, &w.y_raw, w.weights.as_deref(), j, &w.names[j], alpha))
+            Named::new(
+                w.names[j].clone(),
+                box_tidwell(&w.x_raw, &w.y_raw, w.weights.as_deref(), j, &w.names[j], alpha),
+            )
         })
         .collect()
 }
@@ -782,7 +816,13 @@ struct Spec {
 }
 
 /// Cross-validated RMSE of a specification on the response scale of the model.
-fn cv_rmse(w: &Working, cols: &[usize], spec: &Spec, folds: &[usize], k: usize) -> std::result::Result<f64, String> {
+fn cv_rmse(
+    w: &Working,
+    cols: &[usize],
+    spec: &Spec,
+    folds: &[usize],
+    k: usize,
+) -> std::result::Result<f64, String> {
     let x = candidate_design(w, cols, &spec.powers);
     let z: Vec<f64> = w.y_raw.iter().map(|&v| apply_power(v, spec.response_power)).collect();
     let n = w.n;
@@ -835,7 +875,8 @@ fn candidate_design(w: &Working, cols: &[usize], powers: &[f64]) -> Matrix {
 fn candidate_summary(w: &Working, cols: &[usize], spec: &Spec, alpha: f64) -> Option<CandidateSummary> {
     let x = candidate_design(w, cols, &spec.powers);
     let z: Vec<f64> = w.y_raw.iter().map(|&v| apply_power(v, spec.response_power)).collect();
-    let cw = Working::fit_parts(x, z, w.weights.clone(), w.names.clone(), w.keys.clone(), w.intercept).ok()?;
+    let cw =
+        Working::fit_parts(x, z, w.weights.clone(), w.names.clone(), w.keys.clone(), w.intercept).ok()?;
     let total = if cw.intercept.is_some() {
         let (_, ys) = super::scale_by_weights(&cw.x_raw, &cw.y_raw, cw.weights.as_deref());
         match &cw.weights {
@@ -872,7 +913,9 @@ pub(crate) fn search(
     let k = opts.cv_folds();
     let n = w.n;
     if n < k {
-        return CheckOutcome::Unavailable(format!("{k}-fold cross-validation needs at least {k} rows; there are {n}"));
+        return CheckOutcome::Unavailable(format!(
+            "{k}-fold cross-validation needs at least {k} rows; there are {n}"
+        ));
     }
     let largest_fold = n.div_ceil(k);
     if n - largest_fold <= w.p {
@@ -911,9 +954,9 @@ pub(crate) fn search(
                 responses.push(s);
             }
         }
-        CheckOutcome::Ok(_) => {
-            notes.push("The response has zero or negative values, so only predictor powers were searched.".to_owned())
-        }
+        CheckOutcome::Ok(_) => notes.push(
+            "The response has zero or negative values, so only predictor powers were searched.".to_owned(),
+        ),
         CheckOutcome::Unavailable(_) => {
             notes.push("No response power was available, so only predictor powers were searched.".to_owned())
         }
@@ -948,9 +991,13 @@ pub(crate) fn search(
             for (c, slot) in combined.iter_mut().enumerate() {
                 let best = evaluated[start..]
                     .iter()
-                    .filter(|(s, r)| r.is_ok() && s.powers.iter().enumerate().all(|(i, &p)| i == c || p == 1.0))
+                    .filter(|(s, r)| {
+                        r.is_ok() && s.powers.iter().enumerate().all(|(i, &p)| i == c || p == 1.0)
+                    })
                     .min_by(|a, b| {
-                        a.1.as_ref().unwrap_or(&f64::INFINITY).total_cmp(b.1.as_ref().unwrap_or(&f64::INFINITY))
+                        a.1.as_ref()
+                            .unwrap_or(&f64::INFINITY)
+                            .total_cmp(b.1.as_ref().unwrap_or(&f64::INFINITY))
                     });
                 if let Some((s, _)) = best {
                     *slot = s.powers[c];

@@ -72,7 +72,9 @@ pub fn brown_forsythe(residuals: &[f64], fitted: &[f64], alpha: f64) -> CheckOut
         return CheckOutcome::Unavailable("residuals and fitted values differ in length".to_owned());
     }
     if n < 3 {
-        return CheckOutcome::Unavailable(format!("the Brown-Forsythe test needs at least 3 rows; there are {n}"));
+        return CheckOutcome::Unavailable(format!(
+            "the Brown-Forsythe test needs at least 3 rows; there are {n}"
+        ));
     }
     let med = median(fitted);
     let (mut lower, mut upper) = (Vec::new(), Vec::new());
@@ -90,8 +92,8 @@ pub fn brown_forsythe(residuals: &[f64], fitted: &[f64], alpha: f64) -> CheckOut
     };
     let (d1, d2) = (dev(&lower), dev(&upper));
     let (m1, m2) = (mean(&d1), mean(&d2));
-    let ss: f64 =
-        d1.iter().map(|d| (d - m1) * (d - m1)).sum::<f64>() + d2.iter().map(|d| (d - m2) * (d - m2)).sum::<f64>();
+    let ss: f64 = d1.iter().map(|d| (d - m1) * (d - m1)).sum::<f64>()
+        + d2.iter().map(|d| (d - m2) * (d - m2)).sum::<f64>();
     let df = n - 2;
     let sp2 = ss / df as f64;
     let (n1, n2) = (d1.len() as f64, d2.len() as f64);
@@ -205,7 +207,9 @@ pub fn breusch_pagan(residuals: &[f64], z: &Matrix, against: &str, alpha: f64) -
     let u: Vec<f64> = residuals.iter().map(|e| e * e).collect();
     let sst = super::centered_ss(&u);
     if !positive(sst) {
-        return CheckOutcome::Unavailable("the squared residuals do not vary, so the test is undefined".to_owned());
+        return CheckOutcome::Unavailable(
+            "the squared residuals do not vary, so the test is undefined".to_owned(),
+        );
     }
     let (_, ls) = match least_squares(z, &u) {
         Ok(v) => v,

@@ -95,11 +95,7 @@ impl Candidates {
             return Err(mismatch("row keys", n, keys.len()));
         }
         if column_names.len() != x.ncols() {
-            return Err(mismatch(
-                "names of the candidate columns",
-                x.ncols(),
-                column_names.len(),
-            ));
+            return Err(mismatch("names of the candidate columns", x.ncols(), column_names.len()));
         }
         if let Some(w) = &weights {
             if w.len() != n {
@@ -107,49 +103,32 @@ impl Candidates {
             }
             for (k, &v) in keys.iter().zip(w) {
                 if !(v.is_finite() && v > 0.0) {
-                    return Err(EngineError::BadWeight {
-                        row_key: k.clone(),
-                        value: v,
-                    });
+                    return Err(EngineError::BadWeight { row_key: k.clone(), value: v });
                 }
             }
         }
         let mut next = 0;
         for t in &terms {
             if t.columns.start != next || t.columns.end <= t.columns.start {
-                return Err(mismatch(
-                    "first column of the next candidate term",
-                    next,
-                    t.columns.start,
-                ));
+                return Err(mismatch("first column of the next candidate term", next, t.columns.start));
             }
             next = t.columns.end;
         }
         if next != x.ncols() {
-            return Err(mismatch(
-                "columns covered by the candidate terms",
-                x.ncols(),
-                next,
-            ));
+            return Err(mismatch("columns covered by the candidate terms", x.ncols(), next));
         }
         if !intercept && terms.is_empty() {
             return Err(EngineError::EmptyModel);
         }
         for (k, &v) in keys.iter().zip(&y) {
             if !v.is_finite() {
-                return Err(EngineError::NonFinite {
-                    column: "the response".to_owned(),
-                    row_key: k.clone(),
-                });
+                return Err(EngineError::NonFinite { column: "the response".to_owned(), row_key: k.clone() });
             }
         }
         for (j, name) in column_names.iter().enumerate() {
             for (k, &v) in keys.iter().zip(x.column(j)) {
                 if !v.is_finite() {
-                    return Err(EngineError::NonFinite {
-                        column: name.clone(),
-                        row_key: k.clone(),
-                    });
+                    return Err(EngineError::NonFinite { column: name.clone(), row_key: k.clone() });
                 }
             }
         }
@@ -253,18 +232,12 @@ impl Candidates {
 
     /// Number of regression coefficients of the model made of `terms` (intercept included).
     pub fn params_of(&self, terms: &[usize]) -> usize {
-        usize::from(self.intercept)
-            + terms
-                .iter()
-                .map(|&t| self.terms[t].columns.len())
-                .sum::<usize>()
+        usize::from(self.intercept) + terms.iter().map(|&t| self.terms[t].columns.len()).sum::<usize>()
     }
 
     /// Sum of `ln wᵢ` over the rows (0 without weights).
     pub(crate) fn log_weight_sum(&self) -> f64 {
-        self.weights
-            .as_ref()
-            .map_or(0.0, |w| w.iter().map(|v| v.ln()).sum())
+        self.weights.as_ref().map_or(0.0, |w| w.iter().map(|v| v.ln()).sum())
     }
 
     /// The total sum of squares: about the weighted mean with an intercept, about zero without.
@@ -289,12 +262,7 @@ impl Candidates {
             names.push(crate::INTERCEPT_LABEL.to_owned());
         }
         for &t in terms {
-            names.extend(
-                self.terms[t]
-                    .columns
-                    .clone()
-                    .map(|j| self.column_names[j].clone()),
-            );
+            names.extend(self.terms[t].columns.clone().map(|j| self.column_names[j].clone()));
         }
         names
     }
@@ -339,12 +307,7 @@ impl Candidates {
     /// combination of, by the core's pivoted QR on the model's own (weighted) columns. When that
     /// QR finds the model of full rank (a case at the rank tolerance itself), the column at
     /// model position `fallback` is named with the columns before it.
-    pub(crate) fn alias_explanation(
-        &self,
-        terms: &[usize],
-        rows: &[usize],
-        fallback: usize,
-    ) -> AliasedRefit {
+    pub(crate) fn alias_explanation(&self, terms: &[usize], rows: &[usize], fallback: usize) -> AliasedRefit {
         let mut x = self.model_matrix(terms, Some(rows));
         if let Some(w) = &self.weights {
             let sw: Vec<f64> = rows.iter().map(|&i| w[i].sqrt()).collect();
@@ -358,20 +321,10 @@ impl Candidates {
         let f = PivotedQr::factor(&x, &QrOptions::default());
         if f.rank() < x.ncols() {
             let col = f.aliased_columns()[0];
-            let combination = f
-                .alias_combination(col)
-                .into_iter()
-                .map(|(j, _)| names[j].clone())
-                .collect();
-            return AliasedRefit {
-                column: names[col].clone(),
-                combination,
-            };
+            let combination = f.alias_combination(col).into_iter().map(|(j, _)| names[j].clone()).collect();
+            return AliasedRefit { column: names[col].clone(), combination };
         }
         let j = fallback.min(names.len().saturating_sub(1));
-        AliasedRefit {
-            column: names[j].clone(),
-            combination: names[..j].to_vec(),
-        }
+        AliasedRefit { column: names[j].clone(), combination: names[..j].to_vec() }
     }
 }

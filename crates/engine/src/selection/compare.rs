@@ -76,10 +76,7 @@ impl PartialFTest {
 fn refit_or_error(cands: &Candidates, terms: &[usize], qr: &QrOptions) -> Result<Refit> {
     cands
         .refit(terms, None, qr, false)
-        .map_err(|a| EngineError::Aliased {
-            column: a.column,
-            combination: a.combination,
-        })
+        .map_err(|a| EngineError::Aliased { column: a.column, combination: a.combination })
 }
 
 fn check_terms(cands: &Candidates, terms: &[usize]) -> Result<Vec<usize>> {
@@ -89,10 +86,7 @@ fn check_terms(cands: &Candidates, terms: &[usize]) -> Result<Vec<usize>> {
     if let Some(&bad) = t.iter().find(|&&i| i >= cands.terms().len()) {
         return Err(EngineError::BadSearchOption {
             option: "model".to_owned(),
-            reason: format!(
-                "there is no candidate number {bad}; there are {}",
-                cands.terms().len()
-            ),
+            reason: format!("there is no candidate number {bad}; there are {}", cands.terms().len()),
         });
     }
     Ok(t)
@@ -113,20 +107,11 @@ fn extra_f(sse_s: f64, df_s: usize, sse_l: f64, df_l: usize) -> (Option<f64>, Op
 /// [`EngineError::NotNested`] when neither model contains the other or they are equal;
 /// [`EngineError::Aliased`] when a model is not of full rank;
 /// [`EngineError::NoResidualDf`] when the larger model leaves no residual degrees of freedom.
-pub fn partial_f_test(
-    cands: &Candidates,
-    a: &[usize],
-    b: &[usize],
-    qr: &QrOptions,
-) -> Result<PartialFTest> {
+pub fn partial_f_test(cands: &Candidates, a: &[usize], b: &[usize], qr: &QrOptions) -> Result<PartialFTest> {
     let a = check_terms(cands, a)?;
     let b = check_terms(cands, b)?;
     let (small, large) = if a.len() <= b.len() { (a, b) } else { (b, a) };
-    let missing: Vec<usize> = small
-        .iter()
-        .copied()
-        .filter(|t| large.binary_search(t).is_err())
-        .collect();
+    let missing: Vec<usize> = small.iter().copied().filter(|t| large.binary_search(t).is_err()).collect();
     if !missing.is_empty() || small.len() == large.len() {
         return Err(EngineError::NotNested {
             smaller: model_name(&cands.labels(&small)),
@@ -138,18 +123,11 @@ pub fn partial_f_test(
     let rs = refit_or_error(cands, &small, qr)?;
     let rl = refit_or_error(cands, &large, qr)?;
     if rl.params >= n {
-        return Err(EngineError::NoResidualDf {
-            rows: n,
-            params: rl.params,
-        });
+        return Err(EngineError::NoResidualDf { rows: n, params: rl.params });
     }
     let (df_s, df_l) = (n - rs.params, n - rl.params);
     let (f, p) = extra_f(rs.sse, df_s, rl.sse, df_l);
-    let added: Vec<usize> = large
-        .iter()
-        .copied()
-        .filter(|t| small.binary_search(t).is_err())
-        .collect();
+    let added: Vec<usize> = large.iter().copied().filter(|t| small.binary_search(t).is_err()).collect();
     Ok(PartialFTest {
         smaller: cands.labels(&small),
         larger: cands.labels(&large),
@@ -266,8 +244,7 @@ fn adj_r2(cands: &Candidates, sse: f64, params: usize, sst: f64) -> f64 {
 }
 
 fn aic(cands: &Candidates, sse: f64, params: usize) -> Option<f64> {
-    log_likelihood(sse, cands.nrows(), cands.log_weight_sum())
-        .map(|l| -2.0 * l + 2.0 * params as f64)
+    log_likelihood(sse, cands.nrows(), cands.log_weight_sum()).map(|l| -2.0 * l + 2.0 * params as f64)
 }
 
 /// The drop-one table of the model made of `terms`: for each term, the partial F-test of the
@@ -276,39 +253,22 @@ fn aic(cands: &Candidates, sse: f64, params: usize) -> Option<f64> {
 /// # Errors
 /// [`EngineError::Aliased`] when the model is not of full rank, [`EngineError::NoResidualDf`]
 /// when it leaves no residual degrees of freedom, and the errors of [`cross_validate`].
-pub fn drop_one(
-    cands: &Candidates,
-    terms: &[usize],
-    opts: &DropOneOptions<'_>,
-) -> Result<DropOneTable> {
+pub fn drop_one(cands: &Candidates, terms: &[usize], opts: &DropOneOptions<'_>) -> Result<DropOneTable> {
     let terms = check_terms(cands, terms)?;
     let n = cands.nrows();
     let sst = cands.ssto();
     let fac = Factored::new(cands, &terms, None);
     let refit = |t: &[usize]| {
         fac.refit(cands, t, &opts.qr, false)
-            .map_err(|a| EngineError::Aliased {
-                column: a.column,
-                combination: a.combination,
-            })
+            .map_err(|a| EngineError::Aliased { column: a.column, combination: a.combination })
     };
     let full = refit(&terms)?;
     if full.params >= n {
-        return Err(EngineError::NoResidualDf {
-            rows: n,
-            params: full.params,
-        });
+        return Err(EngineError::NoResidualDf { rows: n, params: full.params });
     }
     let df_full = n - full.params;
     let reduced: Vec<Vec<usize>> = (0..terms.len())
-        .map(|i| {
-            terms
-                .iter()
-                .enumerate()
-                .filter(|&(j, _)| j != i)
-                .map(|(_, &t)| t)
-                .collect()
-        })
+        .map(|i| terms.iter().enumerate().filter(|&(j, _)| j != i).map(|(_, &t)| t).collect())
         .collect();
     let cv = match &opts.cv {
         Some(o) => {
@@ -447,12 +407,7 @@ fn pick_min<'a>(
             best = Some((m, v));
         }
     }
-    best.map(|(m, v)| Pick {
-        criterion,
-        labels: m.labels().to_vec(),
-        size: m.size(),
-        value: v,
-    })
+    best.map(|(m, v)| Pick { criterion, labels: m.labels().to_vec(), size: m.size(), value: v })
 }
 
 /// Names the model each criterion prefers among the reported models of a search (and, when
@@ -460,9 +415,7 @@ fn pick_min<'a>(
 pub fn recommend(search: &SubsetSearch, cv: Option<&CvResult>) -> Recommendation {
     let mut picks = Vec::new();
     let models = || search.models();
-    if let Some(mut p) = pick_min(models(), Criterion::AdjRSquared, |m| {
-        Some(-m.adj_r_squared())
-    }) {
+    if let Some(mut p) = pick_min(models(), Criterion::AdjRSquared, |m| Some(-m.adj_r_squared())) {
         p.value = -p.value;
         picks.push(p);
     }
@@ -471,11 +424,7 @@ pub fn recommend(search: &SubsetSearch, cv: Option<&CvResult>) -> Recommendation
     picks.extend(pick_min(models(), Criterion::Sbc, SubsetModel::sbc));
     picks.extend(pick_min(models(), Criterion::Press, SubsetModel::press));
     if let Some(cv) = cv {
-        let best = cv
-            .models()
-            .iter()
-            .map(|m| (m, m.rmse().mean))
-            .min_by(|a, b| a.1.total_cmp(&b.1));
+        let best = cv.models().iter().map(|m| (m, m.rmse().mean)).min_by(|a, b| a.1.total_cmp(&b.1));
         if let Some((m, v)) = best {
             picks.push(Pick {
                 criterion: Criterion::CvRmse,

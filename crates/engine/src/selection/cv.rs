@@ -285,10 +285,7 @@ pub fn make_folds(n: usize, opts: &CvOptions<'_>) -> Result<Vec<FoldAssignment>>
     match &opts.groups {
         None => {
             if k > n {
-                return Err(bad(
-                    "folds",
-                    &format!("{k} folds cannot be made from {n} rows"),
-                ));
+                return Err(bad("folds", &format!("{k} folds cannot be made from {n} rows")));
             }
             for repeat in 0..opts.repeats {
                 let mut perm: Vec<usize> = (0..n).collect();
@@ -297,10 +294,7 @@ pub fn make_folds(n: usize, opts: &CvOptions<'_>) -> Result<Vec<FoldAssignment>>
                 for (pos, &i) in perm.iter().enumerate() {
                     fold_of_row[i] = pos % k;
                 }
-                out.push(FoldAssignment {
-                    repeat,
-                    fold_of_row,
-                });
+                out.push(FoldAssignment { repeat, fold_of_row });
             }
         }
         Some(g) => {
@@ -341,10 +335,7 @@ pub fn make_folds(n: usize, opts: &CvOptions<'_>) -> Result<Vec<FoldAssignment>>
                     fold_of_group[gi] = f;
                 }
                 let fold_of_row = group_of_row.iter().map(|&gi| fold_of_group[gi]).collect();
-                out.push(FoldAssignment {
-                    repeat,
-                    fold_of_row,
-                });
+                out.push(FoldAssignment { repeat, fold_of_row });
             }
         }
     }
@@ -352,10 +343,7 @@ pub fn make_folds(n: usize, opts: &CvOptions<'_>) -> Result<Vec<FoldAssignment>>
 }
 
 fn bad(option: &str, reason: &str) -> EngineError {
-    EngineError::BadSearchOption {
-        option: option.to_owned(),
-        reason: reason.to_owned(),
-    }
+    EngineError::BadSearchOption { option: option.to_owned(), reason: reason.to_owned() }
 }
 
 /// The inverse of a response transform, `None` outside its range.
@@ -415,20 +403,12 @@ impl Smearer {
         let n = resid.len() as f64;
         let (mean_exp, mean_e, mean_e2) = match t {
             Transform::Log => (resid.iter().map(|e| e.exp()).sum::<f64>() / n, 0.0, 0.0),
-            Transform::Sqrt => (
-                0.0,
-                resid.iter().sum::<f64>() / n,
-                resid.iter().map(|e| e * e).sum::<f64>() / n,
-            ),
+            Transform::Sqrt => {
+                (0.0, resid.iter().sum::<f64>() / n, resid.iter().map(|e| e * e).sum::<f64>() / n)
+            }
             _ => (0.0, 0.0, 0.0),
         };
-        Smearer {
-            t,
-            resid,
-            mean_exp,
-            mean_e,
-            mean_e2,
-        }
+        Smearer { t, resid, mean_exp, mean_e, mean_e2 }
     }
 
     fn predict(&self, eta: f64) -> Option<f64> {
@@ -461,11 +441,7 @@ impl Smearer {
 /// As [`make_folds`]; [`EngineError::BadSearchOption`] when a training set has no more rows than
 /// a model has coefficients, or the original response cannot be recovered from the transform;
 /// [`EngineError::Cancelled`] when the cancel flag is raised.
-pub fn cross_validate(
-    cands: &Candidates,
-    models: &[Vec<usize>],
-    opts: &CvOptions<'_>,
-) -> Result<CvResult> {
+pub fn cross_validate(cands: &Candidates, models: &[Vec<usize>], opts: &CvOptions<'_>) -> Result<CvResult> {
     let n = cands.nrows();
     let assignments = make_folds(n, opts)?;
     let k = opts.folds;
@@ -474,16 +450,9 @@ pub fn cross_validate(
     let y_model = cands.y();
     let y_orig: Vec<f64> = match opts.response_transform {
         None => y_model.to_vec(),
-        Some(t) => y_model
-            .iter()
-            .map(|&v| inverse(t, v))
-            .collect::<Option<Vec<f64>>>()
-            .ok_or_else(|| {
-                bad(
-                    "response transform",
-                    "the original response cannot be recovered from the transformed values",
-                )
-            })?,
+        Some(t) => y_model.iter().map(|&v| inverse(t, v)).collect::<Option<Vec<f64>>>().ok_or_else(|| {
+            bad("response transform", "the original response cannot be recovered from the transformed values")
+        })?,
     };
     let mut union: Vec<usize> = models.iter().flatten().copied().collect();
     union.sort_unstable();
@@ -491,10 +460,7 @@ pub fn cross_validate(
     if let Some(&t) = union.iter().find(|&&t| t >= cands.terms().len()) {
         return Err(bad(
             "models",
-            &format!(
-                "there is no candidate number {t}; there are {}",
-                cands.terms().len()
-            ),
+            &format!("there is no candidate number {t}; there are {}", cands.terms().len()),
         ));
     }
     let max_params = models.iter().map(|m| cands.params_of(m)).max().unwrap_or(0);
@@ -576,11 +542,7 @@ pub fn cross_validate(
             let ws = wsum[mi].max(f64::MIN_POSITIVE);
             out[mi].rmse.push((sse[mi] / ws).sqrt());
             out[mi].mae.push(sae[mi] / ws);
-            out[mi].r2.push(if sst[mi] > 0.0 {
-                1.0 - sse[mi] / sst[mi]
-            } else {
-                0.0
-            });
+            out[mi].r2.push(if sst[mi] > 0.0 { 1.0 - sse[mi] / sst[mi] } else { 0.0 });
         }
     }
     let mut notes = Vec::new();

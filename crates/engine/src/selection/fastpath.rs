@@ -57,22 +57,13 @@ struct Board {
 
 impl Board {
     fn new(top: usize) -> Self {
-        Board {
-            top,
-            his: Vec::with_capacity(top + 1),
-            pool: Vec::new(),
-            next_compact: 4 * top + 32,
-        }
+        Board { top, his: Vec::with_capacity(top + 1), pool: Vec::new(), next_compact: 4 * top + 32 }
     }
 
     /// The current threshold: no model whose `RSS − e` exceeds it can be among the best `top`.
     #[inline]
     fn threshold(&self) -> f64 {
-        if self.his.len() < self.top {
-            f64::INFINITY
-        } else {
-            self.his[self.top - 1]
-        }
+        if self.his.len() < self.top { f64::INFINITY } else { self.his[self.top - 1] }
     }
 
     #[inline]
@@ -98,8 +89,7 @@ impl Board {
     fn finish(mut self) -> Vec<PoolEntry> {
         let t = self.threshold();
         self.pool.retain(|e| e.rss - e.err <= t);
-        self.pool
-            .sort_by(|a, b| (a.rss - a.err).total_cmp(&(b.rss - b.err)));
+        self.pool.sort_by(|a, b| (a.rss - a.err).total_cmp(&(b.rss - b.err)));
         self.pool
     }
 }
@@ -201,14 +191,7 @@ pub(crate) fn householder_r(a: &mut [f64], n: usize, c: usize) -> Vec<f64> {
 /// Forms a child factor: the trailing block of the `c × c` factor `r` from column `start`, without
 /// its first `w` columns, re-triangularised by Householder reflections of length `w + 1`. Writes
 /// the `cc × cc` result (`cc = c − start − w`) into `out`.
-pub(crate) fn drop_block(
-    r: &[f64],
-    c: usize,
-    start: usize,
-    w: usize,
-    tmp: &mut Vec<f64>,
-    out: &mut [f64],
-) {
+pub(crate) fn drop_block(r: &[f64], c: usize, start: usize, w: usize, tmp: &mut Vec<f64>, out: &mut [f64]) {
     let cc = c - start - w;
     let rows = cc + w;
     tmp.clear();
@@ -216,16 +199,12 @@ pub(crate) fn drop_block(
     for j in 0..cc {
         let src_col = start + w + j;
         let nz = w + j + 1;
-        tmp[j * rows..j * rows + nz]
-            .copy_from_slice(&r[src_col * c + start..src_col * c + start + nz]);
+        tmp[j * rows..j * rows + nz].copy_from_slice(&r[src_col * c + start..src_col * c + start + nz]);
     }
     for j in 0..cc {
         let base = j * rows;
         let x0 = tmp[base + j];
-        let s: f64 = tmp[base + j + 1..base + j + 1 + w]
-            .iter()
-            .map(|v| v * v)
-            .sum();
+        let s: f64 = tmp[base + j + 1..base + j + 1 + w].iter().map(|v| v * v).sum();
         if s == 0.0 {
             continue;
         }
@@ -247,25 +226,16 @@ pub(crate) fn drop_block(
             }
         }
         tmp[base + j] = alpha;
-        tmp[base + j + 1..base + j + 1 + w]
-            .iter_mut()
-            .for_each(|v| *v = 0.0);
+        tmp[base + j + 1..base + j + 1 + w].iter_mut().for_each(|v| *v = 0.0);
     }
     for j in 0..cc {
         out[j * cc..j * cc + j + 1].copy_from_slice(&tmp[j * rows..j * rows + j + 1]);
-        out[j * cc + j + 1..(j + 1) * cc]
-            .iter_mut()
-            .for_each(|v| *v = 0.0);
+        out[j * cc + j + 1..(j + 1) * cc].iter_mut().for_each(|v| *v = 0.0);
     }
 }
 
 /// Weighted, centred (with an intercept) copy of a column and its raw weighted length.
-fn prepared(
-    col: &[f64],
-    sw: Option<&[f64]>,
-    w: Option<&[f64]>,
-    intercept: bool,
-) -> (Vec<f64>, f64) {
+fn prepared(col: &[f64], sw: Option<&[f64]>, w: Option<&[f64]>, intercept: bool) -> (Vec<f64>, f64) {
     let raw: Vec<f64> = match sw {
         Some(s) => col.iter().zip(s).map(|(a, b)| a * b).collect(),
         None => col.to_vec(),
@@ -338,9 +308,7 @@ impl FastPath {
         }
         let (ylen, _) = push(&mut a, cands.y());
         if !(ylen > 0.0 && ylen.is_finite()) {
-            return Err(EngineError::ConstantResponse {
-                column: cands.response_label().to_owned(),
-            });
+            return Err(EngineError::ConstantResponse { column: cands.response_label().to_owned() });
         }
         tol.push(0.0);
         let r_all = householder_r(&mut a, n, ctot);
@@ -481,17 +449,7 @@ impl FastPath {
         tree.offer(p, c - 1, full_mask, rss, ratio, mind);
         if p > 0 {
             let all: Vec<usize> = (0..p).collect();
-            tree.visit(
-                0,
-                &self.root,
-                c,
-                &all,
-                0,
-                0,
-                self.forced_ratio,
-                self.forced_mind,
-                full_mask,
-            );
+            tree.visit(0, &self.root, c, &all, 0, 0, self.forced_ratio, self.forced_mind, full_mask);
         }
         if let Some(f) = s.progress {
             f(1.0);
@@ -553,15 +511,7 @@ fn binom(n: usize, k: usize) -> f64 {
 impl Tree<'_> {
     /// Records one computed model and returns its lower bound `RSS − e`.
     #[inline]
-    fn offer(
-        &mut self,
-        free: usize,
-        cols: usize,
-        mask: u64,
-        rss: f64,
-        ratio: f64,
-        mind: f64,
-    ) -> f64 {
+    fn offer(&mut self, free: usize, cols: usize, mask: u64, rss: f64, ratio: f64, mind: f64) -> f64 {
         self.evaluated += 1;
         self.resolved += 1.0;
         let params = self.fp.base_params + cols;
@@ -626,11 +576,7 @@ impl Tree<'_> {
             for i in 0..fp.widths[q] {
                 let col = fp.col_off[q] + i;
                 let j = rat.len();
-                rat.push((
-                    r[j * c + j].abs() / fp.col_tol[col],
-                    r[j * c + j].abs(),
-                    col,
-                ));
+                rat.push((r[j * c + j].abs() / fp.col_tol[col], r[j * c + j].abs(), col));
             }
         }
         let mut buf = std::mem::take(&mut self.arena[depth]);
@@ -661,14 +607,7 @@ impl Tree<'_> {
             let rss = out[cc * cc - 1].powi(2);
             let mask = l_mask & !(1u64 << q);
             let lo = self.offer(k_count + m - 1, k_cols + c - 1 - w, mask, rss, ratio, mind);
-            kids.push(Kid {
-                off,
-                cc,
-                lo,
-                k_ratio: pre_ratio,
-                k_mind: pre_mind,
-                k_cols: k_cols + start,
-            });
+            kids.push(Kid { off, cc, lo, k_ratio: pre_ratio, k_mind: pre_mind, k_cols: k_cols + start });
             for &(rt, d, _) in &rat[start..start + w] {
                 pre_ratio = pre_ratio.min(rt);
                 if rt > 1.0 {

@@ -21,12 +21,11 @@ pub mod subsets;
 
 pub use candidates::{CandidateTerm, Candidates};
 pub use compare::{
-    Criterion, DropOneOptions, DropOneRow, DropOneTable, PartialFTest, Pick, Recommendation,
-    drop_one, partial_f_test, recommend,
+    Criterion, DropOneOptions, DropOneRow, DropOneTable, PartialFTest, Pick, Recommendation, drop_one,
+    partial_f_test, recommend,
 };
 pub use cv::{
-    CvModel, CvOptions, CvResult, FoldAssignment, GroupColumn, Spread, cross_validate, loo_rmse,
-    make_folds,
+    CvModel, CvOptions, CvResult, FoldAssignment, GroupColumn, Spread, cross_validate, loo_rmse, make_folds,
 };
 pub use subsets::{
     AliasedModel, CpReference, EXHAUSTIVE_LIMIT, MAX_CANDIDATES, NOTE_AIC_SCALE, NOTE_OPTIMISTIC_P,

@@ -97,14 +97,7 @@ impl Factored {
         a.extend(rows.iter().zip(&sw).map(|(&i, s)| y[i] * s));
         let data = a.clone();
         let r = householder_r(&mut a, n, c);
-        Factored {
-            rows,
-            sw,
-            pos,
-            data,
-            r,
-            c,
-        }
+        Factored { rows, sw, pos, data, r, c }
     }
 
     /// The rows used.
@@ -140,12 +133,7 @@ impl Factored {
             Ok(f) => {
                 let (s, a) = self.solve(&mp, &f);
                 let h = leverages.then(|| self.leverages(&f, &a));
-                Ok(Refit {
-                    sse: s.sse,
-                    params: mp.len(),
-                    weighted_residuals: s.residuals,
-                    leverages: h,
-                })
+                Ok(Refit { sse: s.sse, params: mp.len(), weighted_residuals: s.residuals, leverages: h })
             }
         }
     }
@@ -174,11 +162,7 @@ impl Factored {
         for &p in mp {
             let col = &self.r[p * c..p * c + c];
             let len = col.iter().map(|v| v * v).sum::<f64>().sqrt();
-            let s = if len > 0.0 && len.is_finite() {
-                len
-            } else {
-                1.0
-            };
+            let s = if len > 0.0 && len.is_finite() { len } else { 1.0 };
             scale.push(s);
             m.extend(col.iter().map(|v| v / s));
         }
@@ -191,11 +175,7 @@ impl Factored {
         let rows = c;
         for step in 0..k {
             let col = &m[step * rows..(step + 1) * rows];
-            let len = if step < rows {
-                col[step..].iter().map(|v| v * v).sum::<f64>().sqrt()
-            } else {
-                0.0
-            };
+            let len = if step < rows { col[step..].iter().map(|v| v * v).sum::<f64>().sqrt() } else { 0.0 };
             if len <= tol {
                 return Err(step);
             }
@@ -214,9 +194,7 @@ impl Factored {
                 }
             }
             m[step * rows + step] = alpha;
-            m[step * rows + step + 1..(step + 1) * rows]
-                .iter_mut()
-                .for_each(|a| *a = 0.0);
+            m[step * rows + step + 1..(step + 1) * rows].iter_mut().for_each(|a| *a = 0.0);
         }
         let mut r = vec![0.0; k * k];
         for j in 0..k {
@@ -226,13 +204,7 @@ impl Factored {
         }
         let qty = m[k * rows..k * rows + k].to_vec();
         let sse = sum_sq_dd(&m[k * rows + k..(k + 1) * rows]);
-        Ok(ModelFactor {
-            scale,
-            r,
-            k,
-            qty,
-            sse,
-        })
+        Ok(ModelFactor { scale, r, k, qty, sse })
     }
 
     /// The weighted data column at factor position `p` (`c − 1` is the response).
@@ -247,8 +219,7 @@ impl Factored {
         let k = f.k;
         let y = self.column(self.c - 1);
         let x: Vec<&[f64]> = mp.iter().map(|&p| self.column(p)).collect();
-        let unscale =
-            |z: &[f64]| -> Vec<f64> { z.iter().zip(&f.scale).map(|(a, b)| a / b).collect() };
+        let unscale = |z: &[f64]| -> Vec<f64> { z.iter().zip(&f.scale).map(|(a, b)| a / b).collect() };
         let mut z = f.back(&f.qty);
         let mut beta = unscale(&z);
         let mut r = residual_dd(y, &x, &beta);
@@ -278,14 +249,7 @@ impl Factored {
             }
         }
         let _ = z;
-        (
-            Solved {
-                beta,
-                residuals: r,
-                sse,
-            },
-            x,
-        )
+        (Solved { beta, residuals: r, sse }, x)
     }
 
     /// Leverages: squared row lengths of `U = A R⁻¹` (A the scaled model columns), by forward
@@ -382,10 +346,7 @@ impl ModelFactor {
         let mut z = b[..k].to_vec();
         for i in (0..k).rev() {
             let (head, tail) = z.split_at_mut(i + 1);
-            let s = tail
-                .iter()
-                .enumerate()
-                .fold(head[i], |s, (o, zj)| s - self.r[(i + 1 + o) * k + i] * zj);
+            let s = tail.iter().enumerate().fold(head[i], |s, (o, zj)| s - self.r[(i + 1 + o) * k + i] * zj);
             head[i] = s / self.r[i * k + i];
         }
         z

@@ -366,26 +366,15 @@ pub fn best_subsets(cands: &Candidates, opts: &SearchOptions<'_>) -> Result<Subs
     forced.sort_unstable();
     for w in forced.windows(2) {
         if w[0] == w[1] {
-            return Err(bad(
-                "forced",
-                &format!("{} is forced in twice", cands.terms()[w[0]].label),
-            ));
+            return Err(bad("forced", &format!("{} is forced in twice", cands.terms()[w[0]].label)));
         }
     }
     if let Some(&t) = forced.iter().find(|&&t| t >= nterms) {
-        return Err(bad(
-            "forced",
-            &format!("there is no candidate number {t}; there are {nterms}"),
-        ));
+        return Err(bad("forced", &format!("there is no candidate number {t}; there are {nterms}")));
     }
-    let free: Vec<usize> = (0..nterms)
-        .filter(|t| forced.binary_search(t).is_err())
-        .collect();
+    let free: Vec<usize> = (0..nterms).filter(|t| forced.binary_search(t).is_err()).collect();
     if free.len() > MAX_CANDIDATES {
-        return Err(EngineError::TooManyCandidates {
-            count: free.len(),
-            max: MAX_CANDIDATES,
-        });
+        return Err(EngineError::TooManyCandidates { count: free.len(), max: MAX_CANDIDATES });
     }
     let max_size = opts.max_size.unwrap_or(nterms).min(nterms);
     if max_size < forced.len() {
@@ -400,10 +389,7 @@ pub fn best_subsets(cands: &Candidates, opts: &SearchOptions<'_>) -> Result<Subs
     if !forced.is_empty()
         && let Err(a) = cands.refit(&forced, None, &opts.qr, false)
     {
-        return Err(EngineError::Aliased {
-            column: a.column,
-            combination: a.combination,
-        });
+        return Err(EngineError::Aliased { column: a.column, combination: a.combination });
     }
     let method = match opts.method {
         SearchMethod::Auto if free.len() <= EXHAUSTIVE_LIMIT => SearchMethod::Exhaustive,
@@ -442,11 +428,7 @@ pub fn best_subsets(cands: &Candidates, opts: &SearchOptions<'_>) -> Result<Subs
             let a = cands.alias_explanation(terms, fac.rows(), pos);
             AliasedModel {
                 labels: cands.labels(terms),
-                message: EngineError::Aliased {
-                    column: a.column,
-                    combination: a.combination,
-                }
-                .to_string(),
+                message: EngineError::Aliased { column: a.column, combination: a.combination }.to_string(),
             }
         };
         for e in pool {
@@ -458,11 +440,7 @@ pub fn best_subsets(cands: &Candidates, opts: &SearchOptions<'_>) -> Result<Subs
                 }
             }
             let mut terms: Vec<usize> = forced.clone();
-            terms.extend(
-                (0..fast.order.len())
-                    .filter(|&q| e.mask >> q & 1 == 1)
-                    .map(|q| fast.order[q]),
-            );
+            terms.extend((0..fast.order.len()).filter(|&q| e.mask >> q & 1 == 1).map(|q| fast.order[q]));
             terms.sort_unstable();
             refits += 1;
             match fac.factor_model(&fac.model_positions(cands, &terms), &opts.qr) {
@@ -559,12 +537,7 @@ pub const TIE_TOLERANCE: f64 = 1e-12;
 /// Sorts by SSE, then orders each run of tied SSEs (each within `tie` of the run's first) by the
 /// term list, so exact ties come out in the same order whatever their rounding.
 pub fn rank_with_ties<T>(v: &mut [T], tie: f64, key: impl Fn(&T) -> (f64, &[usize])) {
-    v.sort_by(|a, b| {
-        key(a)
-            .0
-            .total_cmp(&key(b).0)
-            .then_with(|| key(a).1.cmp(key(b).1))
-    });
+    v.sort_by(|a, b| key(a).0.total_cmp(&key(b).0).then_with(|| key(a).1.cmp(key(b).1)));
     let mut start = 0;
     while start < v.len() {
         let first = key(&v[start]).0;
@@ -578,19 +551,12 @@ pub fn rank_with_ties<T>(v: &mut [T], tie: f64, key: impl Fn(&T) -> (f64, &[usiz
 }
 
 fn bad(option: &str, reason: &str) -> EngineError {
-    EngineError::BadSearchOption {
-        option: option.to_owned(),
-        reason: reason.to_owned(),
-    }
+    EngineError::BadSearchOption { option: option.to_owned(), reason: reason.to_owned() }
 }
 
 /// A short name for a model: its labels joined, or "the intercept-only model".
 pub(crate) fn model_name(labels: &[String]) -> String {
-    if labels.is_empty() {
-        "the intercept-only model".to_owned()
-    } else {
-        labels.join(" + ")
-    }
+    if labels.is_empty() { "the intercept-only model".to_owned() } else { labels.join(" + ") }
 }
 
 /// Gaussian log-likelihood at the MLE of σ² (ENGINE_API convention, as in docs/METHODS.md).
@@ -659,12 +625,7 @@ pub(crate) fn press(cands: &Candidates, r: &Refit) -> (Option<f64>, Option<Strin
             )),
         );
     }
-    let s = crate::linalg::sum_dd(
-        r.weighted_residuals
-            .iter()
-            .zip(h)
-            .map(|(e, h)| (e / (1.0 - h)).powi(2)),
-    );
+    let s = crate::linalg::sum_dd(r.weighted_residuals.iter().zip(h).map(|(e, h)| (e / (1.0 - h)).powi(2)));
     (Some(s), None)
 }
 
@@ -722,11 +683,7 @@ fn cp_reference(
             Err(a) => {
                 let names = cands.column_names();
                 let Some(pos) = terms.iter().position(|&t| {
-                    cands.terms()[t]
-                        .columns
-                        .clone()
-                        .any(|j| names[j] == a.column)
-                        && !forced.contains(&t)
+                    cands.terms()[t].columns.clone().any(|j| names[j] == a.column) && !forced.contains(&t)
                 }) else {
                     return CpReference {
                         labels: Vec::new(),
@@ -734,18 +691,12 @@ fn cp_reference(
                         mse: None,
                         df_resid: 0,
                         note: Some(
-                            "Mallows' Cp is not given: no full-rank reference model was found."
-                                .to_owned(),
+                            "Mallows' Cp is not given: no full-rank reference model was found.".to_owned(),
                         ),
                     };
                 };
-                reasons.push(
-                    EngineError::Aliased {
-                        column: a.column,
-                        combination: a.combination,
-                    }
-                    .to_string(),
-                );
+                reasons
+                    .push(EngineError::Aliased { column: a.column, combination: a.combination }.to_string());
                 left_out.push(terms.remove(pos));
             }
         }

@@ -5,13 +5,13 @@
 use std::path::PathBuf;
 
 use wardcast_engine::allocation::{
-    AllocationOptions, Basis, BlendWeights, BoundStatus, BudgetRow, CovarianceFactor,
-    CurrentBudget, DistrictInput, ExpectedModel, ExpectedSource, SimulationOptions, allocate,
-    check_bounds, covariance_factor, largest_remainder, validate_basis, water_fill,
+    AllocationOptions, Basis, BlendWeights, BoundStatus, BudgetRow, CovarianceFactor, CurrentBudget,
+    DistrictInput, ExpectedModel, ExpectedSource, SimulationOptions, allocate, check_bounds,
+    covariance_factor, largest_remainder, validate_basis, water_fill,
 };
 use wardcast_engine::{
-    Column, Design, EngineError, Exclusion, Fit, FitOptions, Matrix, ModelSpec, Predictor,
-    PredictorValue, Table, Transform,
+    Column, Design, EngineError, Exclusion, Fit, FitOptions, Matrix, ModelSpec, Predictor, PredictorValue,
+    Table, Transform,
 };
 
 use super::common::assert_close;
@@ -108,9 +108,7 @@ fn largest_remainder_hand_worked() {
 fn largest_remainder_sums_exactly_on_awkward_quotas() {
     // Thirds, sevenths and a long tail: the amounts must always sum exactly to the total.
     for total in [1_u64, 7, 100, 999, 1_000_003, 4_500_000] {
-        let weights: Vec<f64> = (1..=37)
-            .map(|i| 1.0 / f64::from(i) + f64::from(i % 7) / 3.0)
-            .collect();
+        let weights: Vec<f64> = (1..=37).map(|i| 1.0 / f64::from(i) + f64::from(i % 7) / 3.0).collect();
         let sum: f64 = weights.iter().sum();
         let quotas: Vec<f64> = weights.iter().map(|w| total as f64 * w / sum).collect();
         let got = largest_remainder(&quotas, total, &[0; 37], &[u64::MAX; 37]);
@@ -126,10 +124,7 @@ fn largest_remainder_sums_exactly_on_awkward_quotas() {
 
 /// Asserts `|a − b| ≤ tol` (an absolute tolerance), naming the quantity.
 fn assert_within(what: &str, a: f64, b: f64, tol: f64) {
-    assert!(
-        a.is_finite() && (a - b).abs() <= tol,
-        "{what}: got {a}, expected {b} within {tol}"
-    );
+    assert!(a.is_finite() && (a - b).abs() <= tol, "{what}: got {a}, expected {b} within {tol}");
 }
 
 /// The message of the error `r` must be exactly `msg`.
@@ -204,13 +199,7 @@ fn check_fill(c: &FillCase) {
         assert_close(&format!("{} amount {i}", c.what), *a, *e, 1e-12, 1.0);
     }
     assert_eq!(status, c.status, "{}", c.what);
-    assert_close(
-        &format!("{} sum", c.what),
-        amounts.iter().sum(),
-        c.total,
-        1e-12,
-        1.0,
-    );
+    assert_close(&format!("{} sum", c.what), amounts.iter().sum(), c.total, 1e-12, 1.0);
 }
 
 #[test]
@@ -260,10 +249,7 @@ fn water_filling_hand_cases() {
     }
     // Rounding the first case keeps the bounds and the sum: 400, 333, 167, 100.
     let (a, _) = water_fill(cases[0].shares, 1000.0, &[100.0; 4], &[400.0; 4]);
-    assert_eq!(
-        largest_remainder(&a, 1000, &[100; 4], &[400; 4]),
-        [400, 333, 167, 100]
-    );
+    assert_eq!(largest_remainder(&a, 1000, &[100; 4], &[400; 4]), [400, 333, 167, 100]);
 }
 
 #[test]
@@ -285,19 +271,10 @@ fn water_filling_is_a_clamped_proportional_split() {
         let floor = (unif() * 0.9 * total / n as f64).floor();
         let cap = (total / n as f64 * (1.05 + 2.0 * unif())).ceil();
         let (a, status) = water_fill(&shares, total, &vec![floor; n], &vec![cap; n]);
-        assert_close(
-            &format!("case {case} sum"),
-            a.iter().sum(),
-            total,
-            1e-12,
-            1.0,
-        );
+        assert_close(&format!("case {case} sum"), a.iter().sum(), total, 1e-12, 1.0);
         let free: Vec<usize> = (0..n).filter(|&i| status[i] == BoundStatus::Free).collect();
         at_cap += status.iter().filter(|&&b| b == BoundStatus::AtCap).count();
-        at_floor += status
-            .iter()
-            .filter(|&&b| b == BoundStatus::AtFloor)
-            .count();
+        at_floor += status.iter().filter(|&&b| b == BoundStatus::AtFloor).count();
         let Some(&f0) = free.first() else { continue };
         let lambda = a[f0] / shares[f0];
         for i in 0..n {
@@ -305,37 +282,22 @@ fn water_filling_is_a_clamped_proportional_split() {
             match status[i] {
                 BoundStatus::Free => {
                     assert_close(&format!("case {case} free {i}"), a[i], target, 1e-9, 1.0);
-                    assert!(
-                        a[i] >= floor - 1e-6 && a[i] <= cap + 1e-6,
-                        "case {case}: {i} within bounds"
-                    );
+                    assert!(a[i] >= floor - 1e-6 && a[i] <= cap + 1e-6, "case {case}: {i} within bounds");
                 }
-                BoundStatus::AtCap => assert!(
-                    target >= cap - 1e-6 && a[i] == cap,
-                    "case {case}: {i} at cap"
-                ),
-                BoundStatus::AtFloor => assert!(
-                    target <= floor + 1e-6 && a[i] == floor,
-                    "case {case}: {i} at floor"
-                ),
+                BoundStatus::AtCap => assert!(target >= cap - 1e-6 && a[i] == cap, "case {case}: {i} at cap"),
+                BoundStatus::AtFloor => {
+                    assert!(target <= floor + 1e-6 && a[i] == floor, "case {case}: {i} at floor")
+                }
             }
         }
     }
-    assert!(
-        at_cap > 50 && at_floor > 50,
-        "both bounds bind often: {at_cap} caps, {at_floor} floors"
-    );
+    assert!(at_cap > 50 && at_floor > 50, "both bounds bind often: {at_cap} caps, {at_floor} floors");
 }
 
 #[test]
 fn blend_weights_validation() {
-    let blend = |population, observed, expected| {
-        Basis::Blend(BlendWeights {
-            population,
-            observed,
-            expected,
-        })
-    };
+    let blend =
+        |population, observed, expected| Basis::Blend(BlendWeights { population, observed, expected });
     validate_basis(&blend(0.2, 0.3, 0.5)).expect("weights summing to 1");
     validate_basis(&blend(0.0, 0.0, 1.0)).expect("a corner of the simplex");
     validate_basis(&Basis::Population).expect("a pure basis");
@@ -381,18 +343,9 @@ fn hand_fit() -> Fit {
 
 fn hand_districts() -> Vec<DistrictInput> {
     // Deliberately out of key order: results come back in key order.
-    [
-        ("D", 4000.0, 6.0),
-        ("A", 1000.0, 4.0),
-        ("C", 3000.0, 6.0),
-        ("B", 2000.0, 4.0),
-    ]
-    .map(|(k, r, o)| DistrictInput {
-        key: k.into(),
-        residents: r,
-        observed: o,
-    })
-    .to_vec()
+    [("D", 4000.0, 6.0), ("A", 1000.0, 4.0), ("C", 3000.0, 6.0), ("B", 2000.0, 4.0)]
+        .map(|(k, r, o)| DistrictInput { key: k.into(), residents: r, observed: o })
+        .to_vec()
 }
 
 fn options(total: u64, basis: Basis) -> AllocationOptions {
@@ -401,10 +354,7 @@ fn options(total: u64, basis: Basis) -> AllocationOptions {
         basis,
         floor: None,
         cap: None,
-        simulation: SimulationOptions {
-            draws: 200,
-            seed: 11,
-        },
+        simulation: SimulationOptions { draws: 200, seed: 11 },
     }
 }
 
@@ -413,84 +363,30 @@ fn sensitivity_hand_case() {
     // Shares by hand: population 0.1/0.2/0.3/0.4, observed 0.2/0.2/0.3/0.3, expected
     // 0.3/0.2/0.3/0.2 (rates 30, 10, 10, 5 per 1,000 times 1, 2, 3, 4 thousand residents).
     let fit = hand_fit();
-    let model = ExpectedModel {
-        fit: &fit,
-        rate_unit: 1000.0,
-        extra_rows: vec![],
-    };
+    let model = ExpectedModel { fit: &fit, rate_unit: 1000.0, extra_rows: vec![] };
     let budgets = [("A", 250), ("B", 200), ("D", 400), ("Z", 999)]
-        .map(|(k, a)| BudgetRow {
-            key: k.into(),
-            amount: a,
-        })
+        .map(|(k, a)| BudgetRow { key: k.into(), amount: a })
         .to_vec();
-    let a = allocate(
-        &hand_districts(),
-        &budgets,
-        &model,
-        &options(1000, Basis::Expected),
-    )
-    .expect("allocation");
+    let a =
+        allocate(&hand_districts(), &budgets, &model, &options(1000, Basis::Expected)).expect("allocation");
     let rows = a.districts();
     let keys: Vec<&str> = rows.iter().map(|r| r.key.as_str()).collect();
     assert_eq!(keys, ["A", "B", "C", "D"]);
     let expect = [
         // key, population, observed, expected share, range pp, amount, current, change, % change
-        (
-            "A",
-            0.1,
-            0.2,
-            0.3,
-            20.0,
-            300,
-            Some(250),
-            Some(50),
-            Some(20.0),
-        ),
+        ("A", 0.1, 0.2, 0.3, 20.0, 300, Some(250), Some(50), Some(20.0)),
         ("B", 0.2, 0.2, 0.2, 0.0, 200, Some(200), Some(0), Some(0.0)),
         ("C", 0.3, 0.3, 0.3, 0.0, 300, None, None, None),
-        (
-            "D",
-            0.4,
-            0.3,
-            0.2,
-            20.0,
-            200,
-            Some(400),
-            Some(-200),
-            Some(-50.0),
-        ),
+        ("D", 0.4, 0.3, 0.2, 20.0, 200, Some(400), Some(-200), Some(-50.0)),
     ];
     for (r, (key, ps, os, es, range, amount, current, change, pct)) in rows.iter().zip(expect) {
         assert_eq!(r.key, key);
-        assert_close(
-            &format!("{key} population share"),
-            r.shares.population,
-            ps,
-            1e-9,
-            1.0,
-        );
-        assert_close(
-            &format!("{key} observed share"),
-            r.shares.observed,
-            os,
-            1e-9,
-            1.0,
-        );
-        assert_close(
-            &format!("{key} expected share"),
-            r.shares.expected,
-            es,
-            1e-9,
-            1.0,
-        );
+        assert_close(&format!("{key} population share"), r.shares.population, ps, 1e-9, 1.0);
+        assert_close(&format!("{key} observed share"), r.shares.observed, os, 1e-9, 1.0);
+        assert_close(&format!("{key} expected share"), r.shares.expected, es, 1e-9, 1.0);
         assert_close(&format!("{key} range"), r.share_range_pp, range, 1e-9, 1.0);
         assert_eq!(r.amount, amount, "{key} amount");
-        assert_eq!(
-            r.current,
-            current.map_or(CurrentBudget::NoCurrentBudget, CurrentBudget::Amount),
-            "{key}"
-        );
+        assert_eq!(r.current, current.map_or(CurrentBudget::NoCurrentBudget, CurrentBudget::Amount), "{key}");
         assert_eq!(r.change, change, "{key} change");
         match (r.percent_change, pct) {
             (Some(g), Some(e)) => assert_close(&format!("{key} percent change"), g, e, 1e-12, 1.0),
@@ -500,23 +396,9 @@ fn sensitivity_hand_case() {
     }
     let amounts: Vec<[u64; 3]> = rows
         .iter()
-        .map(|r| {
-            [
-                r.amounts_by_basis.population,
-                r.amounts_by_basis.observed,
-                r.amounts_by_basis.expected,
-            ]
-        })
+        .map(|r| [r.amounts_by_basis.population, r.amounts_by_basis.observed, r.amounts_by_basis.expected])
         .collect();
-    assert_eq!(
-        amounts,
-        [
-            [100, 200, 300],
-            [200, 200, 200],
-            [300, 300, 300],
-            [400, 300, 200]
-        ]
-    );
+    assert_eq!(amounts, [[100, 200, 300], [200, 200, 200], [300, 300, 300], [400, 300, 200]]);
     // Pairwise: |Δshare| in pp per district, worked by hand from the shares above.
     let s = a.sensitivity();
     let expect_pairs = [
@@ -525,9 +407,7 @@ fn sensitivity_hand_case() {
         (Basis::Observed, Basis::Expected, 10.0, "A", 5.0, 100),
     ];
     assert_eq!(s.comparisons.len(), 3);
-    for (c, (first, second, max_pp, max_key, mean_pp, moved)) in
-        s.comparisons.iter().zip(expect_pairs)
-    {
+    for (c, (first, second, max_pp, max_key, mean_pp, moved)) in s.comparisons.iter().zip(expect_pairs) {
         assert_eq!((c.first, c.second), (first, second));
         assert_close("max pp", c.max_abs_pp, max_pp, 1e-9, 1.0);
         assert_eq!(c.max_key, max_key);
@@ -536,11 +416,7 @@ fn sensitivity_hand_case() {
     }
     assert_close("max range", s.max_range_pp, 20.0, 1e-9, 1.0);
     assert_close("mean range", s.mean_range_pp, 10.0, 1e-9, 1.0);
-    let unmatched: Vec<&str> = a
-        .unmatched_budgets()
-        .iter()
-        .map(|b| b.key.as_str())
-        .collect();
+    let unmatched: Vec<&str> = a.unmatched_budgets().iter().map(|b| b.key.as_str()).collect();
     assert_eq!(unmatched, ["Z"]);
     assert!(a.notes().iter().any(|n| n == "No current budget: C."));
     // The fit is exact, so the covariance is zero: every draw equals the point values.
@@ -548,40 +424,20 @@ fn sensitivity_hand_case() {
     assert_eq!(a.uncertainty().max_share_width_pp, 0.0);
     for (r, u) in rows.iter().zip(&a.uncertainty().districts) {
         for v in [u.share.p2_5, u.share.p50, u.share.p97_5] {
-            assert_close(
-                &format!("{} simulated share", r.key),
-                v,
-                r.shares.expected,
-                1e-9,
-                1.0,
-            );
+            assert_close(&format!("{} simulated share", r.key), v, r.shares.expected, 1e-9, 1.0);
         }
     }
     // A blend reports its own share: 0.2·pop + 0.3·obs + 0.5·exp for A = 0.02 + 0.06 + 0.15.
-    let blend = Basis::Blend(BlendWeights {
-        population: 0.2,
-        observed: 0.3,
-        expected: 0.5,
-    });
+    let blend = Basis::Blend(BlendWeights { population: 0.2, observed: 0.3, expected: 0.5 });
     let b = allocate(&hand_districts(), &budgets, &model, &options(1000, blend)).expect("blend");
-    assert_close(
-        "blend share of A",
-        b.districts()[0].shares.blend.expect("blend share"),
-        0.23,
-        1e-9,
-        1.0,
-    );
+    assert_close("blend share of A", b.districts()[0].shares.blend.expect("blend share"), 0.23, 1e-9, 1.0);
     assert_eq!(b.districts().iter().map(|r| r.amount).sum::<u64>(), 1000);
 }
 
 #[test]
 fn allocation_errors_are_plain() {
     let fit = hand_fit();
-    let model = ExpectedModel {
-        fit: &fit,
-        rate_unit: 1000.0,
-        extra_rows: vec![],
-    };
+    let model = ExpectedModel { fit: &fit, rate_unit: 1000.0, extra_rows: vec![] };
     let mut opts = options(1000, Basis::Population);
     opts.floor = Some(300);
     check_err(
@@ -590,11 +446,7 @@ fn allocation_errors_are_plain() {
          raise the total",
     );
     let mut ds = hand_districts();
-    ds.push(DistrictInput {
-        key: "E".into(),
-        residents: 500.0,
-        observed: 1.0,
-    });
+    ds.push(DistrictInput { key: "E".into(), residents: 500.0, observed: 1.0 });
     check_err(
         allocate(&ds, &[], &model, &options(1000, Basis::Population)),
         "district E has no model-expected incidents because it is not in the model's data; supply its indicator values \
@@ -605,10 +457,8 @@ fn allocation_errors_are_plain() {
         allocate(&ds, &[], &model, &options(1000, Basis::Population)),
         "district E: residents must be a positive number, not 0",
     );
-    let zero: Vec<DistrictInput> = hand_districts()
-        .into_iter()
-        .map(|d| DistrictInput { observed: 0.0, ..d })
-        .collect();
+    let zero: Vec<DistrictInput> =
+        hand_districts().into_iter().map(|d| DistrictInput { observed: 0.0, ..d }).collect();
     check_err(
         allocate(&zero, &[], &model, &options(1000, Basis::Population)),
         "the observed basis is zero in every district, so it cannot divide the total",
@@ -641,10 +491,7 @@ fn covariance_factor_handles_semidefinite() {
     assert_close("L21", l.get(1, 0), 1.0, 1e-15, 1.0);
     assert_close("L22", l.get(1, 1), 2.0_f64.sqrt(), 1e-15, 1.0);
     let bad = Matrix::from_rows(&[vec![1.0, 2.0], vec![2.0, 1.0]]);
-    assert!(matches!(
-        covariance_factor(&bad),
-        Err(EngineError::NotPositiveSemidefinite { .. })
-    ));
+    assert!(matches!(covariance_factor(&bad), Err(EngineError::NotPositiveSemidefinite { .. })));
 }
 
 /// Twelve invented districts with a noisy linear rate, for the simulation tests.
@@ -652,22 +499,11 @@ fn noisy_fit(log: bool) -> (Fit, Vec<DistrictInput>) {
     let keys: Vec<String> = (1..=12).map(|i| format!("D{i:02}")).collect();
     let x: Vec<f64> = (0..12).map(|i| f64::from(i) * 0.8 + 1.0).collect();
     // A fixed zig-zag stands in for noise so the fit is not exact.
-    let noise = [
-        1.5, -2.0, 0.7, 2.4, -1.1, -0.3, 1.9, -2.6, 0.4, 1.2, -1.7, 0.9,
-    ];
-    let rate: Vec<f64> = x
-        .iter()
-        .zip(noise)
-        .map(|(v, e)| 20.0 + 3.0 * v + e)
-        .collect();
-    let residents: Vec<f64> = (0..12)
-        .map(|i| 3000.0 + 1700.0 * f64::from((i * 7) % 12))
-        .collect();
-    let table = Table::new(
-        keys.clone(),
-        vec![Column::from_f64("rate", &rate), Column::from_f64("x", &x)],
-    )
-    .expect("table");
+    let noise = [1.5, -2.0, 0.7, 2.4, -1.1, -0.3, 1.9, -2.6, 0.4, 1.2, -1.7, 0.9];
+    let rate: Vec<f64> = x.iter().zip(noise).map(|(v, e)| 20.0 + 3.0 * v + e).collect();
+    let residents: Vec<f64> = (0..12).map(|i| 3000.0 + 1700.0 * f64::from((i * 7) % 12)).collect();
+    let table = Table::new(keys.clone(), vec![Column::from_f64("rate", &rate), Column::from_f64("x", &x)])
+        .expect("table");
     let mut spec = ModelSpec::new("rate", &["x"]);
     if log {
         spec.response_transform = Some(Transform::Log);
@@ -690,72 +526,29 @@ fn noisy_fit(log: bool) -> (Fit, Vec<DistrictInput>) {
 #[test]
 fn simulation_is_reproducible_and_centred() {
     let (fit, ds) = noisy_fit(false);
-    let model = ExpectedModel {
-        fit: &fit,
-        rate_unit: 10_000.0,
-        extra_rows: vec![],
-    };
+    let model = ExpectedModel { fit: &fit, rate_unit: 10_000.0, extra_rows: vec![] };
     let mut opts = options(1_000_000, Basis::Expected);
-    opts.simulation = SimulationOptions {
-        draws: 4000,
-        seed: 20_250_417,
-    };
+    opts.simulation = SimulationOptions { draws: 4000, seed: 20_250_417 };
     let a = allocate(&ds, &[], &model, &opts).expect("allocation");
     let again = allocate(&ds, &[], &model, &opts).expect("allocation");
-    assert_eq!(
-        a.uncertainty(),
-        again.uncertainty(),
-        "same seed, same ranges"
-    );
-    assert_eq!(
-        (a.uncertainty().seed, a.uncertainty().draws),
-        (20_250_417, 4000)
-    );
+    assert_eq!(a.uncertainty(), again.uncertainty(), "same seed, same ranges");
+    assert_eq!((a.uncertainty().seed, a.uncertainty().draws), (20_250_417, 4000));
     opts.simulation.seed = 1;
     let other = allocate(&ds, &[], &model, &opts).expect("allocation");
-    assert_ne!(
-        a.uncertainty().districts,
-        other.uncertainty().districts,
-        "another seed, other draws"
-    );
+    assert_ne!(a.uncertainty().districts, other.uncertainty().districts, "another seed, other draws");
 
     // The expected incidents of a draw are x'β*·residents/unit with x'β* ~ N(x'b, se_mean²), so
     // their 2.5 and 97.5 percentiles must be close to fit ∓ 1.96·se_mean from Fit::predict
     // (normal quantile 1.959964, standard tables). Monte Carlo error with 4000 draws is a few
     // per cent of the width.
-    let rows = Matrix::from_rows(
-        &(0..fit.nobs())
-            .map(|i| fit.design().x().row(i))
-            .collect::<Vec<_>>(),
-    );
+    let rows = Matrix::from_rows(&(0..fit.nobs()).map(|i| fit.design().x().row(i)).collect::<Vec<_>>());
     let preds = fit.predict(&rows, None, 0.95).expect("predict");
-    for ((r, u), p) in a
-        .districts()
-        .iter()
-        .zip(&a.uncertainty().districts)
-        .zip(&preds)
-    {
+    for ((r, u), p) in a.districts().iter().zip(&a.uncertainty().districts).zip(&preds) {
         let k = r.residents / 10_000.0;
         let half = 1.959_964 * p.se_mean * k;
-        assert_close(
-            &format!("{} expected", r.key),
-            r.expected,
-            p.fit * k,
-            1e-12,
-            1.0,
-        );
-        assert_within(
-            &format!("{} 2.5%", r.key),
-            u.expected.p2_5,
-            p.fit * k - half,
-            0.08 * half,
-        );
-        assert_within(
-            &format!("{} 97.5%", r.key),
-            u.expected.p97_5,
-            p.fit * k + half,
-            0.08 * half,
-        );
+        assert_close(&format!("{} expected", r.key), r.expected, p.fit * k, 1e-12, 1.0);
+        assert_within(&format!("{} 2.5%", r.key), u.expected.p2_5, p.fit * k - half, 0.08 * half);
+        assert_within(&format!("{} 97.5%", r.key), u.expected.p97_5, p.fit * k + half, 0.08 * half);
         // The median share sits close to the point share, inside the range.
         let width = u.share.p97_5 - u.share.p2_5;
         assert!(width > 0.0, "{}: the range has width", r.key);
@@ -764,17 +557,9 @@ fn simulation_is_reproducible_and_centred() {
             "{}: point inside",
             r.key
         );
-        assert_within(
-            &format!("{} median share", r.key),
-            u.share.p50,
-            r.shares.expected,
-            0.1 * width,
-        );
+        assert_within(&format!("{} median share", r.key), u.share.p50, r.shares.expected, 0.1 * width);
     }
-    assert_eq!(
-        a.districts().iter().map(|r| r.amount).sum::<u64>(),
-        1_000_000
-    );
+    assert_eq!(a.districts().iter().map(|r| r.amount).sum::<u64>(), 1_000_000);
     // The summary width is the widest of the per-district ranges.
     let widest = a
         .uncertainty()
@@ -783,23 +568,13 @@ fn simulation_is_reproducible_and_centred() {
         .map(|u| 100.0 * (u.basis_share.p97_5 - u.basis_share.p2_5))
         .fold(0.0, f64::max);
     assert!(widest > 0.0);
-    assert_close(
-        "widest range",
-        a.uncertainty().max_share_width_pp,
-        widest,
-        1e-12,
-        1.0,
-    );
+    assert_close("widest range", a.uncertainty().max_share_width_pp, widest, 1e-12, 1.0);
 }
 
 #[test]
 fn log_response_is_back_transformed_with_smearing() {
     let (fit, ds) = noisy_fit(true);
-    let model = ExpectedModel {
-        fit: &fit,
-        rate_unit: 10_000.0,
-        extra_rows: vec![],
-    };
+    let model = ExpectedModel { fit: &fit, rate_unit: 10_000.0, extra_rows: vec![] };
     let a = allocate(&ds, &[], &model, &options(500_000, Basis::Expected)).expect("allocation");
     // Duan (1983): the smearing factor is the mean of exp(residual) on the log scale.
     let smear = fit.residuals().iter().map(|e| e.exp()).sum::<f64>() / fit.residuals().len() as f64;
@@ -813,63 +588,28 @@ fn log_response_is_back_transformed_with_smearing() {
 
 /// Reads a simple unquoted CSV into a header and rows of fields.
 fn read_csv(name: &str) -> (Vec<String>, Vec<Vec<String>>) {
-    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-        .join("../../demo")
-        .join(name);
-    let text = std::fs::read_to_string(&path)
-        .unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
+    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../demo").join(name);
+    let text =
+        std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
     let mut lines = text.lines().filter(|l| !l.trim().is_empty());
-    let header = lines
-        .next()
-        .expect("header")
-        .split(',')
-        .map(String::from)
-        .collect();
-    let rows = lines
-        .map(|l| l.split(',').map(String::from).collect())
-        .collect();
+    let header = lines.next().expect("header").split(',').map(String::from).collect();
+    let rows = lines.map(|l| l.split(',').map(String::from).collect()).collect();
     (header, rows)
 }
 
 #[test]
 fn larkmoor_demo_allocation() {
     let (header, rows) = read_csv("larkmoor_districts.csv");
-    let col = |name: &str| {
-        header
-            .iter()
-            .position(|h| h == name)
-            .unwrap_or_else(|| panic!("no column {name}"))
-    };
+    let col =
+        |name: &str| header.iter().position(|h| h == name).unwrap_or_else(|| panic!("no column {name}"));
     let num = |r: &Vec<String>, name: &str| -> Option<f64> { r[col(name)].parse().ok() };
-    let keys: Vec<String> = rows
-        .iter()
-        .map(|r| r[col("district_code")].clone())
-        .collect();
-    let residents: Vec<f64> = rows
-        .iter()
-        .map(|r| num(r, "residents").expect("residents"))
-        .collect();
-    let assaults: Vec<f64> = rows
-        .iter()
-        .map(|r| num(r, "assaults").expect("assaults"))
-        .collect();
-    let rate: Vec<f64> = assaults
-        .iter()
-        .zip(&residents)
-        .map(|(a, r)| a / r * 10_000.0)
-        .collect();
-    let indicators = [
-        "unemployment_pct",
-        "vacancy_pct",
-        "youth_share_pct",
-        "alcohol_outlets_per_1k",
-    ];
+    let keys: Vec<String> = rows.iter().map(|r| r[col("district_code")].clone()).collect();
+    let residents: Vec<f64> = rows.iter().map(|r| num(r, "residents").expect("residents")).collect();
+    let assaults: Vec<f64> = rows.iter().map(|r| num(r, "assaults").expect("assaults")).collect();
+    let rate: Vec<f64> = assaults.iter().zip(&residents).map(|(a, r)| a / r * 10_000.0).collect();
+    let indicators = ["unemployment_pct", "vacancy_pct", "youth_share_pct", "alcohol_outlets_per_1k"];
     let mut columns = vec![Column::from_f64("assault_rate_per_10k", &rate)];
-    columns.extend(
-        indicators
-            .iter()
-            .map(|c| Column::numeric(*c, rows.iter().map(|r| num(r, c)).collect())),
-    );
+    columns.extend(indicators.iter().map(|c| Column::numeric(*c, rows.iter().map(|r| num(r, c)).collect())));
     let table = Table::new(keys.clone(), columns).expect("table");
     let mut spec = ModelSpec::new("assault_rate_per_10k", &[]);
     spec.predictors = vec![
@@ -878,10 +618,8 @@ fn larkmoor_demo_allocation() {
         Predictor::new("youth_share_pct"),
         Predictor::new("alcohol_outlets_per_1k"),
     ];
-    spec.exclusions = vec![Exclusion {
-        key: "LK-47".into(),
-        reason: "event crowds from outside the district".into(),
-    }];
+    spec.exclusions =
+        vec![Exclusion { key: "LK-47".into(), reason: "event crowds from outside the district".into() }];
     let design = Design::build(&table, &spec).expect("design");
     let fit = Fit::new(&design, &FitOptions::default()).expect("fit");
 
@@ -889,35 +627,21 @@ fn larkmoor_demo_allocation() {
         .iter()
         .zip(&residents)
         .zip(&assaults)
-        .map(|((k, r), a)| DistrictInput {
-            key: k.clone(),
-            residents: *r,
-            observed: *a,
-        })
+        .map(|((k, r), a)| DistrictInput { key: k.clone(), residents: *r, observed: *a })
         .collect();
     let (bh, brows) = read_csv("larkmoor_budgets.csv");
     assert_eq!(bh[..2], ["district_code", "programme_budget"]);
     let budgets: Vec<BudgetRow> = brows
         .iter()
-        .map(|r| BudgetRow {
-            key: r[0].clone(),
-            amount: r[1].parse().expect("amount"),
-        })
+        .map(|r| BudgetRow { key: r[0].clone(), amount: r[1].parse().expect("amount") })
         .collect();
     let total: u64 = budgets.iter().map(|b| b.amount).sum();
     let opts = AllocationOptions {
         total,
-        basis: Basis::Blend(BlendWeights {
-            population: 0.5,
-            observed: 0.0,
-            expected: 0.5,
-        }),
+        basis: Basis::Blend(BlendWeights { population: 0.5, observed: 0.0, expected: 0.5 }),
         floor: Some(30_000),
         cap: Some(140_000),
-        simulation: SimulationOptions {
-            draws: 500,
-            seed: 7,
-        },
+        simulation: SimulationOptions { draws: 500, seed: 7 },
     };
 
     // The excluded arena quarter has all its values, so its row can be supplied; LK-12 lacks
@@ -925,19 +649,11 @@ fn larkmoor_demo_allocation() {
     let arena = rows.iter().find(|r| r[0] == "LK-47").expect("LK-47");
     let values: Vec<(String, PredictorValue)> = indicators
         .iter()
-        .map(|c| {
-            (
-                (*c).to_owned(),
-                PredictorValue::Number(num(arena, c).expect("value")),
-            )
-        })
+        .map(|c| ((*c).to_owned(), PredictorValue::Number(num(arena, c).expect("value"))))
         .collect();
     let arena_row = design.row_for_prediction(&values).expect("arena row");
-    let model = ExpectedModel {
-        fit: &fit,
-        rate_unit: 10_000.0,
-        extra_rows: vec![("LK-47".into(), arena_row)],
-    };
+    let model =
+        ExpectedModel { fit: &fit, rate_unit: 10_000.0, extra_rows: vec![("LK-47".into(), arena_row)] };
     check_err(
         allocate(&districts, &budgets, &model, &opts),
         "district LK-12 has no model-expected incidents because it was left out of the fit (missing value in \
@@ -947,56 +663,23 @@ fn larkmoor_demo_allocation() {
     let a = allocate(&kept, &budgets, &model, &opts).expect("allocation");
     let out = a.districts();
     assert_eq!(out.len(), 63);
-    assert_eq!(
-        out.iter().map(|r| r.amount).sum::<u64>(),
-        total,
-        "amounts sum exactly to the total"
-    );
-    assert!(
-        out.windows(2).all(|w| w[0].key < w[1].key),
-        "rows in key order"
-    );
+    assert_eq!(out.iter().map(|r| r.amount).sum::<u64>(), total, "amounts sum exactly to the total");
+    assert!(out.windows(2).all(|w| w[0].key < w[1].key), "rows in key order");
     for r in out {
-        assert!(
-            (30_000..=140_000).contains(&r.amount),
-            "{} amount {} within bounds",
-            r.key,
-            r.amount
-        );
+        assert!((30_000..=140_000).contains(&r.amount), "{} amount {} within bounds", r.key, r.amount);
     }
-    let none: Vec<&str> = out
-        .iter()
-        .filter(|r| r.current == CurrentBudget::NoCurrentBudget)
-        .map(|r| r.key.as_str())
-        .collect();
-    assert_eq!(
-        none,
-        ["LK-07", "LK-58"],
-        "districts without a budget row are kept and marked"
-    );
-    let unmatched: Vec<&str> = a
-        .unmatched_budgets()
-        .iter()
-        .map(|b| b.key.as_str())
-        .collect();
-    assert_eq!(
-        unmatched,
-        ["LK-12", "LK-65", "LK-7A"],
-        "budget rows that match no allocated district"
-    );
+    let none: Vec<&str> =
+        out.iter().filter(|r| r.current == CurrentBudget::NoCurrentBudget).map(|r| r.key.as_str()).collect();
+    assert_eq!(none, ["LK-07", "LK-58"], "districts without a budget row are kept and marked");
+    let unmatched: Vec<&str> = a.unmatched_budgets().iter().map(|b| b.key.as_str()).collect();
+    assert_eq!(unmatched, ["LK-12", "LK-65", "LK-7A"], "budget rows that match no allocated district");
     let arena = out.iter().find(|r| r.key == "LK-47").expect("arena");
     assert_eq!(arena.expected_source, ExpectedSource::OutOfFit);
     assert!(a.sensitivity().max_range_pp > 0.0);
     // Every amount and range is a finite number.
     for (r, u) in out.iter().zip(&a.uncertainty().districts) {
         assert_eq!(r.key, u.key);
-        for v in [
-            u.amount.p2_5,
-            u.amount.p50,
-            u.amount.p97_5,
-            u.share.p50,
-            r.unrounded_amount,
-        ] {
+        for v in [u.amount.p2_5, u.amount.p50, u.amount.p97_5, u.share.p50, r.unrounded_amount] {
             assert!(v.is_finite(), "{}: finite values", r.key);
         }
         assert!(

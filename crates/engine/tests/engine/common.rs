@@ -6,9 +6,7 @@ use serde_json::Value;
 
 /// Reads a fixture under `tests/fixtures/` at the workspace root.
 pub fn fixture(rel: &str) -> Value {
-    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-        .join("../../tests/fixtures")
-        .join(rel);
+    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../tests/fixtures").join(rel);
     let text = std::fs::read_to_string(&path)
         .unwrap_or_else(|e| panic!("cannot read fixture {}: {e}", path.display()));
     serde_json::from_str(&text)
@@ -17,26 +15,17 @@ pub fn fixture(rel: &str) -> Value {
 
 /// A JSON number as f64.
 pub fn num(v: &Value) -> f64 {
-    v.as_f64()
-        .unwrap_or_else(|| panic!("expected a number, found {v}"))
+    v.as_f64().unwrap_or_else(|| panic!("expected a number, found {v}"))
 }
 
 /// A JSON array of numbers.
 pub fn nums(v: &Value) -> Vec<f64> {
-    v.as_array()
-        .unwrap_or_else(|| panic!("expected an array, found {v}"))
-        .iter()
-        .map(num)
-        .collect()
+    v.as_array().unwrap_or_else(|| panic!("expected an array, found {v}")).iter().map(num).collect()
 }
 
 /// A JSON array of arrays of numbers.
 pub fn rows(v: &Value) -> Vec<Vec<f64>> {
-    v.as_array()
-        .unwrap_or_else(|| panic!("expected an array, found {v}"))
-        .iter()
-        .map(nums)
-        .collect()
+    v.as_array().unwrap_or_else(|| panic!("expected an array, found {v}")).iter().map(nums).collect()
 }
 
 /// Asserts `|a − b| ≤ rel·max(|b|, floor)`, naming the quantity.

@@ -34,7 +34,8 @@ fn fixture_dir() -> PathBuf {
 
 fn load(name: &str) -> Value {
     let path = fixture_dir().join(format!("{name}.json"));
-    let text = std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
+    let text =
+        std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
     serde_json::from_str(&text).expect("fixture is valid JSON")
 }
 
@@ -55,7 +56,10 @@ impl Errors {
     fn close_floor(&mut self, what: &str, got: f64, want: f64, tol: f64, floor: f64) {
         let denom = want.abs().max(floor).max(f64::MIN_POSITIVE);
         let err = (got - want).abs() / denom;
-        assert!(got.is_finite() && err <= tol, "{what}: got {got:e}, want {want:e} (relative error {err:e} > {tol:e})");
+        assert!(
+            got.is_finite() && err <= tol,
+            "{what}: got {got:e}, want {want:e} (relative error {err:e} > {tol:e})"
+        );
         let e = self.0.entry(what.to_owned()).or_insert(0.0);
         *e = e.max(err);
     }
@@ -166,7 +170,13 @@ fn check(name: &str) {
     err.close_vec("cooks_d", &cooks, &nums(&inf["cooks_d"]), EXACT_TOL);
     // The percentile is 1 − cooks_p; compared absolutely, as a probability.
     for (r, p) in rows.iter().zip(nums(&inf["cooks_p"])) {
-        err.close_floor("cooks percentile (abs)", r.cooks_percentile().expect("pct"), 1.0 - p, EXACT_TOL, 1.0);
+        err.close_floor(
+            "cooks percentile (abs)",
+            r.cooks_percentile().expect("pct"),
+            1.0 - p,
+            EXACT_TOL,
+            1.0,
+        );
     }
     let dffits: Vec<f64> = rows.iter().map(|r| r.dffits().expect("dffits")).collect();
     err.close_vec("dffits", &dffits, &nums(&inf["dffits"]), EXACT_TOL);
@@ -251,7 +261,9 @@ fn check(name: &str) {
     let ci = bc["ci95"].as_array().expect("ci95");
     for (got, want) in [prof.interval().0, prof.interval().1].into_iter().zip(ci) {
         match want.as_f64() {
-            Some(w) => err.close_floor("boxcox ci95 end (abs)", got.expect("interval end"), w, OPTIMISER_TOL, 1.0),
+            Some(w) => {
+                err.close_floor("boxcox ci95 end (abs)", got.expect("interval end"), w, OPTIMISER_TOL, 1.0)
+            }
             None => assert!(got.is_none(), "interval end should lie outside the range"),
         }
     }
@@ -402,8 +414,15 @@ fn exact_fit_keeps_the_report_going() {
     let x1: Vec<f64> = (0..n).map(|i| f64::from(i as u32)).collect();
     let x2: Vec<f64> = (0..n).map(|i| f64::from((i * i % 7) as u32)).collect();
     let y: Vec<f64> = x1.iter().zip(&x2).map(|(a, b)| 1.0 + 2.0 * a - b).collect();
-    let d = Design::from_matrix(Matrix::from_columns(&[x1, x2]), y, None, vec!["a".into(), "b".into()], keys(n), true)
-        .expect("design");
+    let d = Design::from_matrix(
+        Matrix::from_columns(&[x1, x2]),
+        y,
+        None,
+        vec!["a".into(), "b".into()],
+        keys(n),
+        true,
+    )
+    .expect("design");
     let fit = Fit::new(&d, &FitOptions::default()).expect("fit");
     let checks = diagnostics::run(&fit, &CheckOptions::default());
     for (what, reason) in [
@@ -426,7 +445,8 @@ fn too_few_rows_for_some_tests() {
     // n = 4 with 2 coefficients: RESET needs n ≥ p + 3 = 5 and is unavailable; the rest runs.
     let x = vec![1.0, 2.0, 3.0, 5.0];
     let y = vec![1.1, 1.9, 3.2, 4.8];
-    let d = Design::from_matrix(Matrix::from_columns(&[x]), y, None, vec!["x".into()], keys(4), true).expect("design");
+    let d = Design::from_matrix(Matrix::from_columns(&[x]), y, None, vec!["x".into()], keys(4), true)
+        .expect("design");
     let fit = Fit::new(&d, &FitOptions::default()).expect("fit");
     let checks = diagnostics::run(&fit, &CheckOptions::default());
     assert!(checks.reset().reason().is_some_and(|r| r.contains("rows")), "{:?}", checks.reset());
@@ -564,10 +584,17 @@ fn search_finds_a_planted_log_and_never_changes_the_model() {
     let n = 80;
     let x1: Vec<f64> = (0..n).map(|_| 10f64.powf(2.0 * lcg(&mut s))).collect();
     let x2: Vec<f64> = (0..n).map(|_| 1.0 + 9.0 * lcg(&mut s)).collect();
-    let y: Vec<f64> = (0..n).map(|i| 5.0 + 4.0 * x1[i].ln() + 0.3 * x2[i] + 0.2 * (lcg(&mut s) - 0.5)).collect();
-    let d =
-        Design::from_matrix(Matrix::from_columns(&[x1, x2]), y, None, vec!["x1".into(), "x2".into()], keys(n), true)
-            .expect("design");
+    let y: Vec<f64> =
+        (0..n).map(|i| 5.0 + 4.0 * x1[i].ln() + 0.3 * x2[i] + 0.2 * (lcg(&mut s) - 0.5)).collect();
+    let d = Design::from_matrix(
+        Matrix::from_columns(&[x1, x2]),
+        y,
+        None,
+        vec!["x1".into(), "x2".into()],
+        keys(n),
+        true,
+    )
+    .expect("design");
     let fit = Fit::new(&d, &FitOptions::default()).expect("fit");
     let before = fit.coefficients().to_vec();
     let checks = diagnostics::run(&fit, &CheckOptions::default());
@@ -603,7 +630,8 @@ fn search_suggests_a_response_power_and_smears_back() {
     let n = 120;
     let x: Vec<f64> = (0..n).map(|_| 4.0 * lcg(&mut s)).collect();
     let y: Vec<f64> = x.iter().map(|v| (1.0 + 0.8 * v + 0.3 * (lcg(&mut s) - 0.5)).exp()).collect();
-    let d = Design::from_matrix(Matrix::from_columns(&[x]), y, None, vec!["x".into()], keys(n), true).expect("design");
+    let d = Design::from_matrix(Matrix::from_columns(&[x]), y, None, vec!["x".into()], keys(n), true)
+        .expect("design");
     let fit = Fit::new(&d, &FitOptions::default()).expect("fit");
     let checks = diagnostics::run(&fit, &CheckOptions::default());
     let prof = ok(checks.response_power(), "profile");
@@ -628,7 +656,8 @@ fn weighted_fit_runs_every_check() {
     let y = nums(&fx["y"]);
     let w = nums(&fx["weights"]);
     let n = y.len();
-    let d = Design::from_matrix(Matrix::from_rows(&rows), y, Some(w.clone()), names, keys(n), true).expect("design");
+    let d = Design::from_matrix(Matrix::from_rows(&rows), y, Some(w.clone()), names, keys(n), true)
+        .expect("design");
     let fit = Fit::new(&d, &FitOptions::default()).expect("fit");
     let checks = diagnostics::run(&fit, &CheckOptions::default());
     assert!(checks.weighted());
@@ -668,7 +697,8 @@ fn demo_table() -> Option<Table> {
     let text = std::fs::read_to_string(path).ok()?;
     let mut lines = text.lines();
     let header: Vec<&str> = lines.next()?.split(',').collect();
-    let rows: Vec<Vec<&str>> = lines.filter(|l| !l.trim().is_empty()).map(|l| l.split(',').collect()).collect();
+    let rows: Vec<Vec<&str>> =
+        lines.filter(|l| !l.trim().is_empty()).map(|l| l.split(',').collect()).collect();
     let col = |name: &str| header.iter().position(|h| *h == name).expect("column");
     let numeric = |name: &str| -> Vec<Option<f64>> {
         let j = col(name);
@@ -712,10 +742,13 @@ fn demo_arena_is_flagged_and_vacancy_wants_a_log() {
     assert_eq!(arena.cooks_band(), Some(InfluenceBand::Major), "arena Cook's distance");
     assert!(arena.dffits_flag(), "arena DFFITS");
     assert!(arena.flagged());
-    let top_cook = infl.rows().iter().max_by(|a, b| a.cooks_d().unwrap_or(0.0).total_cmp(&b.cooks_d().unwrap_or(0.0)));
+    let top_cook =
+        infl.rows().iter().max_by(|a, b| a.cooks_d().unwrap_or(0.0).total_cmp(&b.cooks_d().unwrap_or(0.0)));
     assert_eq!(top_cook.map(|r| r.key()), Some("LK-47"));
-    let top_dffits =
-        infl.rows().iter().max_by(|a, b| a.dffits().unwrap_or(0.0).abs().total_cmp(&b.dffits().unwrap_or(0.0).abs()));
+    let top_dffits = infl
+        .rows()
+        .iter()
+        .max_by(|a, b| a.dffits().unwrap_or(0.0).abs().total_cmp(&b.dffits().unwrap_or(0.0).abs()));
     assert_eq!(top_dffits.map(|r| r.key()), Some("LK-47"));
     // The published planted numbers: Cook's D 15.7 and leverage 0.736 with linear vacancy.
     assert!((arena.cooks_d().expect("cook") - 15.656).abs() < 5e-3);
@@ -732,7 +765,8 @@ fn demo_arena_is_flagged_and_vacancy_wants_a_log() {
         .candidates()
         .iter()
         .find(|c| {
-            c.response_power() == 1.0 && c.predictor_powers().iter().any(|(n, p)| n == "vacancy_pct" && *p != 1.0)
+            c.response_power() == 1.0
+                && c.predictor_powers().iter().any(|(n, p)| n == "vacancy_pct" && *p != 1.0)
         })
         .expect("a vacancy candidate");
     let power = best_vacancy.predictor_powers().iter().find(|(n, _)| n == "vacancy_pct").map(|(_, p)| *p);

@@ -18,9 +18,7 @@ use crate::common::{assert_close, fixture, num};
 /// the largest relative error seen.
 fn check(family: &str, rel: impl Fn(&Value) -> f64, f: impl Fn(&Value) -> f64) -> f64 {
     let all = fixture("dist/tails.json");
-    let entries = all[family]
-        .as_array()
-        .unwrap_or_else(|| panic!("family {family}"));
+    let entries = all[family].as_array().unwrap_or_else(|| panic!("family {family}"));
     assert!(!entries.is_empty(), "{family}: no entries");
     let mut worst = 0.0_f64;
     let mut at = String::new();
@@ -34,10 +32,7 @@ fn check(family: &str, rel: impl Fn(&Value) -> f64, f: impl Fn(&Value) -> f64) -
             at = format!("{e} (got {got:e})");
         }
     }
-    println!(
-        "{family:<8} {:>4} entries, worst relative error {worst:.1e} at {at}",
-        entries.len()
-    );
+    println!("{family:<8} {:>4} entries, worst relative error {worst:.1e} at {at}", entries.len());
     worst
 }
 
@@ -51,11 +46,7 @@ fn quantile(e: &Value, lower: impl Fn(f64) -> f64, upper: impl Fn(f64) -> f64) -
 
 #[test]
 fn t_tails_and_quantiles_match_scipy() {
-    check(
-        "t_sf",
-        |_| 1e-11,
-        |e| dist::t_sf(num(&e["x"]), num(&e["df"])),
-    );
+    check("t_sf", |_| 1e-11, |e| dist::t_sf(num(&e["x"]), num(&e["df"])));
     check(
         "t_ppf",
         |_| 1e-9,
@@ -78,40 +69,22 @@ fn f_tails_and_quantiles_match_scipy() {
         |_| 1e-9,
         |e| {
             let (d1, d2) = (num(&e["d1"]), num(&e["d2"]));
-            quantile(
-                e,
-                |p| dist::f_quantile(p, d1, d2),
-                |q| dist::f_isf(q, d1, d2),
-            )
+            quantile(e, |p| dist::f_quantile(p, d1, d2), |q| dist::f_isf(q, d1, d2))
         },
     );
 }
 
 #[test]
 fn chi2_and_normal_match_scipy() {
-    check(
-        "chi2_sf",
-        |_| 1e-13,
-        |e| dist::chi2_sf(num(&e["x"]), num(&e["df"])),
-    );
+    check("chi2_sf", |_| 1e-13, |e| dist::chi2_sf(num(&e["x"]), num(&e["df"])));
     check("norm_sf", |_| 1e-13, |e| dist::norm_sf(num(&e["x"])));
-    check(
-        "norm_ppf",
-        |_| 1e-13,
-        |e| quantile(e, dist::norm_quantile, dist::norm_isf),
-    );
+    check("norm_ppf", |_| 1e-13, |e| quantile(e, dist::norm_quantile, dist::norm_isf));
 }
 
 #[test]
 fn two_sided_p_is_twice_the_upper_tail() {
     // Identity of the definitions: P(|T| ≥ t) = 2·P(T > t) for t > 0.
     for &(t, df) in &[(0.3, 1.0), (2.5, 7.0), (40.0, 3.0), (8.0, 1e5)] {
-        assert_close(
-            "two-sided p",
-            dist::t_two_sided_p(t, df),
-            2.0 * dist::t_sf(t, df),
-            1e-14,
-            0.0,
-        );
+        assert_close("two-sided p", dist::t_two_sided_p(t, df), 2.0 * dist::t_sf(t, df), 1e-14, 0.0);
     }
 }

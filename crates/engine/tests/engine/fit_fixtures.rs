@@ -26,25 +26,12 @@ fn design_of(case: &Value) -> Design {
         .collect();
     let x = rows(&case["x"]);
     let y = nums(&case["y"]);
-    let cols: Vec<Vec<f64>> = (0..names.len())
-        .map(|j| x.iter().map(|r| r[j]).collect())
-        .collect();
-    let weights = if case["weights"].is_null() {
-        None
-    } else {
-        Some(nums(&case["weights"]))
-    };
+    let cols: Vec<Vec<f64>> = (0..names.len()).map(|j| x.iter().map(|r| r[j]).collect()).collect();
+    let weights = if case["weights"].is_null() { None } else { Some(nums(&case["weights"])) };
     let keys = (1..=y.len()).map(|i| format!("row{i}")).collect();
     let intercept = case["intercept"].as_bool().expect("intercept flag");
-    Design::from_matrix(
-        Matrix::from_columns(&cols),
-        y,
-        weights,
-        names,
-        keys,
-        intercept,
-    )
-    .expect("valid design")
+    Design::from_matrix(Matrix::from_columns(&cols), y, weights, names, keys, intercept)
+        .expect("valid design")
 }
 
 /// Compares every fitted quantity of one fixture case.
@@ -55,25 +42,11 @@ fn check(name: &str) {
     let fit = Fit::new(&d, &FitOptions::default()).expect("fit");
     let w = |q: &str| format!("{name}: {q}");
 
-    assert_all_close(
-        &w("params"),
-        fit.coefficients(),
-        &nums(&e["params"]),
-        REL,
-        0.0,
-    );
+    assert_all_close(&w("params"), fit.coefficients(), &nums(&e["params"]), REL, 0.0);
     assert_all_close(&w("bse"), fit.std_errors(), &nums(&e["bse"]), REL, 0.0);
-    let t: Vec<f64> = fit
-        .t_values()
-        .iter()
-        .map(|v| v.expect("t defined"))
-        .collect();
+    let t: Vec<f64> = fit.t_values().iter().map(|v| v.expect("t defined")).collect();
     assert_all_close(&w("tvalues"), &t, &nums(&e["tvalues"]), REL, 0.0);
-    let p: Vec<f64> = fit
-        .p_values()
-        .iter()
-        .map(|v| v.expect("p defined"))
-        .collect();
+    let p: Vec<f64> = fit.p_values().iter().map(|v| v.expect("p defined")).collect();
     assert_all_close(&w("pvalues"), &p, &nums(&e["pvalues"]), REL, 0.0);
     for (key, level) in [("conf_int_95", 0.95), ("conf_int_90", 0.90)] {
         let ci = fit.conf_int(level).expect("level");
@@ -89,129 +62,40 @@ fn check(name: &str) {
         for (j, v) in r.iter().enumerate() {
             // Off-diagonal covariances can be near zero; they are compared on the matrix's scale.
             let floor = if i == j { 0.0 } else { 1e-8 * scale };
-            assert_close(
-                &w(&format!("cov[{i},{j}]")),
-                fit.covariance().get(i, j),
-                *v,
-                REL,
-                floor,
-            );
+            assert_close(&w(&format!("cov[{i},{j}]")), fit.covariance().get(i, j), *v, REL, floor);
         }
     }
     assert_close(&w("ssr (SSE)"), fit.sse(), num(&e["ssr"]), REL, 0.0);
     assert_close(&w("ess (SSR)"), fit.ssr(), num(&e["ess"]), REL, 0.0);
     assert_close(&w("tss (SSTO)"), fit.ssto(), num(&e["tss"]), REL, 0.0);
-    let basis = if case["intercept"].as_bool() == Some(true) {
-        SsBasis::AboutMean
-    } else {
-        SsBasis::AboutZero
-    };
+    let basis =
+        if case["intercept"].as_bool() == Some(true) { SsBasis::AboutMean } else { SsBasis::AboutZero };
     assert_eq!(fit.ss_basis(), basis, "{name}: SS basis");
-    assert_eq!(
-        fit.df_model() as f64,
-        num(&e["df_model"]),
-        "{name}: df_model"
-    );
-    assert_eq!(
-        fit.df_resid() as f64,
-        num(&e["df_resid"]),
-        "{name}: df_resid"
-    );
+    assert_eq!(fit.df_model() as f64, num(&e["df_model"]), "{name}: df_model");
+    assert_eq!(fit.df_resid() as f64, num(&e["df_resid"]), "{name}: df_resid");
     assert_close(&w("mse_resid"), fit.mse(), num(&e["mse_resid"]), REL, 0.0);
-    assert_close(
-        &w("scale_sqrt"),
-        fit.sigma(),
-        num(&e["scale_sqrt"]),
-        REL,
-        0.0,
-    );
-    assert_close(
-        &w("rsquared"),
-        fit.r_squared(),
-        num(&e["rsquared"]),
-        REL,
-        0.0,
-    );
-    assert_close(
-        &w("rsquared_adj"),
-        fit.adj_r_squared(),
-        num(&e["rsquared_adj"]),
-        REL,
-        0.0,
-    );
-    assert_close(
-        &w("fvalue"),
-        fit.f_statistic().expect("F"),
-        num(&e["fvalue"]),
-        REL,
-        0.0,
-    );
-    assert_close(
-        &w("f_pvalue"),
-        fit.f_p_value().expect("F p"),
-        num(&e["f_pvalue"]),
-        REL,
-        0.0,
-    );
+    assert_close(&w("scale_sqrt"), fit.sigma(), num(&e["scale_sqrt"]), REL, 0.0);
+    assert_close(&w("rsquared"), fit.r_squared(), num(&e["rsquared"]), REL, 0.0);
+    assert_close(&w("rsquared_adj"), fit.adj_r_squared(), num(&e["rsquared_adj"]), REL, 0.0);
+    assert_close(&w("fvalue"), fit.f_statistic().expect("F"), num(&e["fvalue"]), REL, 0.0);
+    assert_close(&w("f_pvalue"), fit.f_p_value().expect("F p"), num(&e["f_pvalue"]), REL, 0.0);
     assert_close(&w("llf"), fit.log_likelihood(), num(&e["llf"]), REL, 0.0);
     assert_close(&w("aic"), fit.aic(), num(&e["aic"]), REL, 0.0);
     assert_close(&w("bic"), fit.bic(), num(&e["bic"]), REL, 0.0);
-    assert_all_close(
-        &w("fittedvalues"),
-        fit.fitted(),
-        &nums(&e["fittedvalues"]),
-        REL,
-        0.0,
-    );
+    assert_all_close(&w("fittedvalues"), fit.fitted(), &nums(&e["fittedvalues"]), REL, 0.0);
     assert_all_close(&w("resid"), fit.residuals(), &nums(&e["resid"]), REL, 1e-8);
 
     // Sequential ANOVA: anova_lm typ 1 for OLS; nested-fit differences under WLS.
-    let anova = if e["anova_lm_typ1"].is_null() {
-        &e["anova_seq_nested"]
-    } else {
-        &e["anova_lm_typ1"]
-    };
+    let anova = if e["anova_lm_typ1"].is_null() { &e["anova_seq_nested"] } else { &e["anova_lm_typ1"] };
     let anova = anova.as_array().expect("anova rows");
-    assert_eq!(
-        fit.sequential_anova().len(),
-        anova.len(),
-        "{name}: anova rows"
-    );
+    assert_eq!(fit.sequential_anova().len(), anova.len(), "{name}: anova rows");
     for (row, ex) in fit.sequential_anova().iter().zip(anova) {
-        assert_eq!(
-            row.term,
-            ex["term"].as_str().expect("term"),
-            "{name}: anova term order"
-        );
+        assert_eq!(row.term, ex["term"].as_str().expect("term"), "{name}: anova term order");
         assert_eq!(row.df as f64, num(&ex["df"]));
-        assert_close(
-            &w(&format!("anova {} sum_sq", row.term)),
-            row.ss,
-            num(&ex["sum_sq"]),
-            REL,
-            0.0,
-        );
-        assert_close(
-            &w(&format!("anova {} mean_sq", row.term)),
-            row.ms,
-            num(&ex["mean_sq"]),
-            REL,
-            0.0,
-        );
-        assert_close(
-            &w(&format!("anova {} F", row.term)),
-            row.f.expect("F"),
-            num(&ex["F"]),
-            REL,
-            0.0,
-        );
-        assert_close(
-            &w(&format!("anova {} p", row.term)),
-            row.p.expect("p"),
-            num(&ex["PR(>F)"]),
-            REL,
-            0.0,
-        );
+        assert_close(&w(&format!("anova {} sum_sq", row.term)), row.ss, num(&ex["sum_sq"]), REL, 0.0);
+        assert_close(&w(&format!("anova {} mean_sq", row.term)), row.ms, num(&ex["mean_sq"]), REL, 0.0);
+        assert_close(&w(&format!("anova {} F", row.term)), row.f.expect("F"), num(&ex["F"]), REL, 0.0);
+        assert_close(&w(&format!("anova {} p", row.term)), row.p.expect("p"), num(&ex["PR(>F)"]), REL, 0.0);
     }
 
     // Partial F tests (compare_f_test of the full model against each one-term-dropped model).
@@ -219,20 +103,8 @@ fn check(name: &str) {
     assert_eq!(fit.partial_f_tests().len(), partial.len());
     for (pf, ex) in fit.partial_f_tests().iter().zip(partial) {
         assert_eq!(pf.term, ex["term"].as_str().expect("term"));
-        assert_close(
-            &w(&format!("partial {} F", pf.term)),
-            pf.f.expect("F"),
-            num(&ex["F"]),
-            REL,
-            0.0,
-        );
-        assert_close(
-            &w(&format!("partial {} p", pf.term)),
-            pf.p.expect("p"),
-            num(&ex["p"]),
-            REL,
-            0.0,
-        );
+        assert_close(&w(&format!("partial {} F", pf.term)), pf.f.expect("F"), num(&ex["F"]), REL, 0.0);
+        assert_close(&w(&format!("partial {} p", pf.term)), pf.p.expect("p"), num(&ex["p"]), REL, 0.0);
         assert_close(
             &w(&format!("partial {} extra_ss", pf.term)),
             pf.extra_ss,
@@ -255,54 +127,17 @@ fn check(name: &str) {
             }
         })
         .collect();
-    let wnew = if pr["weights_new"].is_null() {
-        None
-    } else {
-        Some(nums(&pr["weights_new"]))
-    };
+    let wnew = if pr["weights_new"].is_null() { None } else { Some(nums(&pr["weights_new"])) };
     let level = 1.0 - num(&pr["alpha"]);
-    let preds = fit
-        .predict(&Matrix::from_rows(&full), wnew.as_deref(), level)
-        .expect("predict");
+    let preds = fit.predict(&Matrix::from_rows(&full), wnew.as_deref(), level).expect("predict");
     let get = |k: &str| nums(&pr[k]);
-    let col =
-        |f: &dyn Fn(&wardcast_engine::Prediction) -> f64| preds.iter().map(f).collect::<Vec<f64>>();
+    let col = |f: &dyn Fn(&wardcast_engine::Prediction) -> f64| preds.iter().map(f).collect::<Vec<f64>>();
     assert_all_close(&w("predict mean"), &col(&|p| p.fit), &get("mean"), REL, 0.0);
-    assert_all_close(
-        &w("predict mean_se"),
-        &col(&|p| p.se_mean),
-        &get("mean_se"),
-        REL,
-        0.0,
-    );
-    assert_all_close(
-        &w("predict mean_ci_lower"),
-        &col(&|p| p.mean_ci.0),
-        &get("mean_ci_lower"),
-        REL,
-        0.0,
-    );
-    assert_all_close(
-        &w("predict mean_ci_upper"),
-        &col(&|p| p.mean_ci.1),
-        &get("mean_ci_upper"),
-        REL,
-        0.0,
-    );
-    assert_all_close(
-        &w("predict obs_ci_lower"),
-        &col(&|p| p.pred_int.0),
-        &get("obs_ci_lower"),
-        REL,
-        0.0,
-    );
-    assert_all_close(
-        &w("predict obs_ci_upper"),
-        &col(&|p| p.pred_int.1),
-        &get("obs_ci_upper"),
-        REL,
-        0.0,
-    );
+    assert_all_close(&w("predict mean_se"), &col(&|p| p.se_mean), &get("mean_se"), REL, 0.0);
+    assert_all_close(&w("predict mean_ci_lower"), &col(&|p| p.mean_ci.0), &get("mean_ci_lower"), REL, 0.0);
+    assert_all_close(&w("predict mean_ci_upper"), &col(&|p| p.mean_ci.1), &get("mean_ci_upper"), REL, 0.0);
+    assert_all_close(&w("predict obs_ci_lower"), &col(&|p| p.pred_int.0), &get("obs_ci_lower"), REL, 0.0);
+    assert_all_close(&w("predict obs_ci_upper"), &col(&|p| p.pred_int.1), &get("obs_ci_upper"), REL, 0.0);
 }
 
 #[test]

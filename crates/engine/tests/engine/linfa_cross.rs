@@ -22,61 +22,43 @@ fn check(name: &str, rel: f64) {
     let n = y.len();
     let k = x[0].len();
     let intercept = case["intercept"].as_bool().expect("intercept");
-    let weights = if case["weights"].is_null() {
-        None
-    } else {
-        Some(nums(&case["weights"]))
-    };
+    let weights = if case["weights"].is_null() { None } else { Some(nums(&case["weights"])) };
 
     let cols: Vec<Vec<f64>> = (0..k).map(|j| x.iter().map(|r| r[j]).collect()).collect();
     let names = (0..k).map(|j| format!("x{j}")).collect();
     let keys = (0..n).map(|i| i.to_string()).collect();
-    let d = Design::from_matrix(
-        Matrix::from_columns(&cols),
-        y.clone(),
-        weights.clone(),
-        names,
-        keys,
-        intercept,
-    )
-    .expect("design");
+    let d =
+        Design::from_matrix(Matrix::from_columns(&cols), y.clone(), weights.clone(), names, keys, intercept)
+            .expect("design");
     let ours = Fit::new(&d, &FitOptions::default()).expect("fit");
 
-    let theirs: Vec<f64> =
-        match &weights {
-            None => {
-                let records = Array2::from_shape_fn((n, k), |(i, j)| x[i][j]);
-                let model = LinearRegression::new()
-                    .with_intercept(intercept)
-                    .fit(&Dataset::new(records, Array1::from(y.clone())))
-                    .expect("linfa fit");
-                let mut b: Vec<f64> = Vec::new();
-                if intercept {
-                    b.push(model.intercept());
-                }
-                b.extend(model.params().iter());
-                b
+    let theirs: Vec<f64> = match &weights {
+        None => {
+            let records = Array2::from_shape_fn((n, k), |(i, j)| x[i][j]);
+            let model = LinearRegression::new()
+                .with_intercept(intercept)
+                .fit(&Dataset::new(records, Array1::from(y.clone())))
+                .expect("linfa fit");
+            let mut b: Vec<f64> = Vec::new();
+            if intercept {
+                b.push(model.intercept());
             }
-            Some(w) => {
-                let s: Vec<f64> = w.iter().map(|v| v.sqrt()).collect();
-                let records = Array2::from_shape_fn((n, k + 1), |(i, j)| {
-                    if j == 0 { s[i] } else { s[i] * x[i][j - 1] }
-                });
-                let target = Array1::from_shape_fn(n, |i| s[i] * y[i]);
-                let model = LinearRegression::new()
-                    .with_intercept(false)
-                    .fit(&Dataset::new(records, target))
-                    .expect("linfa fit");
-                model.params().to_vec()
-            }
-        };
-    assert_all_close(
-        &format!("{name}: coefficients vs linfa"),
-        ours.coefficients(),
-        &theirs,
-        rel,
-        0.0,
-    );
+            b.extend(model.params().iter());
+            b
+        }
+        Some(w) => {
+            let s: Vec<f64> = w.iter().map(|v| v.sqrt()).collect();
+            let records =
+                Array2::from_shape_fn((n, k + 1), |(i, j)| if j == 0 { s[i] } else { s[i] * x[i][j - 1] });
+            let target = Array1::from_shape_fn(n, |i| s[i] * y[i]);
+            let model = LinearRegression::new()
+                .with_intercept(false)
+                .fit(&Dataset::new(records, target))
+                .expect("linfa fit");
+            model.params().to_vec()
+        }
+    };
+    assert_all_close(&format!("{name}: coefficients vs linfa"), ours.coefficients(), &theirs, rel, 0.0);
 }
 
 #[test]

@@ -56,9 +56,7 @@ const DATASETS: [(&str, Model, f64); 11] = [
 fn nist_dir() -> PathBuf {
     let dir = match std::env::var_os(VAR) {
         Some(v) => PathBuf::from(v),
-        None => {
-            PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../../shared/reference/nist-strd")
-        }
+        None => PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../../shared/reference/nist-strd"),
     };
     assert!(
         dir.join("Norris.dat").is_file(),
@@ -72,10 +70,7 @@ fn nist_dir() -> PathBuf {
 /// and R-squared) and the data, which start on line 61 in every file (README of the folder).
 fn parse(text: &str) -> Certified {
     let lines: Vec<&str> = text.lines().map(|l| l.trim_end_matches('\r')).collect();
-    let num = |s: &str| {
-        s.parse::<f64>()
-            .unwrap_or_else(|_| panic!("not a number in a NIST file: {s:?}"))
-    };
+    let num = |s: &str| s.parse::<f64>().unwrap_or_else(|_| panic!("not a number in a NIST file: {s:?}"));
     let mut estimates = Vec::new();
     let mut std_devs = Vec::new();
     let mut residual_sd = None;
@@ -112,16 +107,8 @@ fn parse(text: &str) -> Certified {
 
 /// McCullough's log relative error, capped at 15.
 fn lre(x: f64, c: f64) -> f64 {
-    let err = if c == 0.0 {
-        (x - c).abs()
-    } else {
-        ((x - c) / c).abs()
-    };
-    if err == 0.0 {
-        15.0
-    } else {
-        (-err.log10()).min(15.0)
-    }
+    let err = if c == 0.0 { (x - c).abs() } else { ((x - c) / c).abs() };
+    if err == 0.0 { 15.0 } else { (-err.log10()).min(15.0) }
 }
 
 /// Builds the design of a dataset; powers of x are formed by repeated multiplication.
@@ -132,21 +119,13 @@ fn design(name: &str, model: Model, cert: &Certified) -> Design {
     let (cols, names, intercept): (Vec<Vec<f64>>, Vec<String>, bool) = match model {
         Model::Poly(d) => {
             let x: Vec<f64> = cert.data.iter().map(|r| r[1]).collect();
-            let cols = (1..=d)
-                .map(|k| x.iter().map(|v| v.powi(k as i32)).collect())
-                .collect();
+            let cols = (1..=d).map(|k| x.iter().map(|v| v.powi(k as i32)).collect()).collect();
             (cols, (1..=d).map(|k| format!("x^{k}")).collect(), true)
         }
-        Model::NoIntercept => (
-            vec![cert.data.iter().map(|r| r[1]).collect()],
-            vec!["x".to_owned()],
-            false,
-        ),
+        Model::NoIntercept => (vec![cert.data.iter().map(|r| r[1]).collect()], vec!["x".to_owned()], false),
         Model::Linear => {
             let k = cert.data[0].len() - 1;
-            let cols = (1..=k)
-                .map(|j| cert.data.iter().map(|r| r[j]).collect())
-                .collect();
+            let cols = (1..=k).map(|j| cert.data.iter().map(|r| r[j]).collect()).collect();
             (cols, (1..=k).map(|j| format!("x{j}")).collect(), true)
         }
     };
@@ -159,23 +138,15 @@ fn design(name: &str, model: Model, cert: &Certified) -> Design {
 fn nist_strd_log_relative_errors() {
     let dir = nist_dir();
     let mut failures = Vec::new();
-    println!(
-        "{:<10} {:<14} {:>6} {:>7}",
-        "dataset", "quantity", "LRE", "target"
-    );
+    println!("{:<10} {:<14} {:>6} {:>7}", "dataset", "quantity", "LRE", "target");
     for (name, model, target) in DATASETS {
         let path = dir.join(format!("{name}.dat"));
-        let text = std::fs::read_to_string(&path)
-            .unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
+        let text =
+            std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
         let cert = parse(&text);
         let d = design(name, model, &cert);
-        let fit = Fit::new(&d, &FitOptions::default())
-            .unwrap_or_else(|e| panic!("{name}: fit failed: {e}"));
-        assert_eq!(
-            fit.coefficients().len(),
-            cert.estimates.len(),
-            "{name}: parameter count"
-        );
+        let fit = Fit::new(&d, &FitOptions::default()).unwrap_or_else(|e| panic!("{name}: fit failed: {e}"));
+        assert_eq!(fit.coefficients().len(), cert.estimates.len(), "{name}: parameter count");
         let mut rows: Vec<(String, f64)> = Vec::new();
         for (k, (&b, &c)) in fit.coefficients().iter().zip(&cert.estimates).enumerate() {
             rows.push((format!("B{k}"), lre(b, c)));
@@ -193,14 +164,7 @@ fn nist_strd_log_relative_errors() {
                 failures.push(format!("{name} {q}: LRE {v:.2} < {target}"));
             }
         }
-        println!(
-            "{name:<10} {:<14} {min:>6.2} {target:>7.1}   (minimum)",
-            "min"
-        );
+        println!("{name:<10} {:<14} {min:>6.2} {target:>7.1}   (minimum)", "min");
     }
-    assert!(
-        failures.is_empty(),
-        "LRE under target:\n{}",
-        failures.join("\n")
-    );
+    assert!(failures.is_empty(), "LRE under target:\n{}", failures.join("\n"));
 }

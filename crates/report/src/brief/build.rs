@@ -7,8 +7,8 @@ use wardcast_contract::spec::{PredictorSpec, TransformSpec};
 use wardcast_engine::dist::t_quantile;
 
 use super::text::{
-    INTERVAL_MEANING, OPTIMISTIC_P, direction, fmt_amount, fmt_coef, fmt_fixed, fmt_p, fmt_share,
-    fmt_sig, in_sentence, join_and, readable_step, step_words,
+    INTERVAL_MEANING, OPTIMISTIC_P, direction, fmt_amount, fmt_coef, fmt_fixed, fmt_p, fmt_share, fmt_sig,
+    in_sentence, join_and, readable_step, step_words,
 };
 use super::{
     Block, Brief, BriefInput, CautionText, Cell, Figure, LIMITATIONS_HEADING, Limitations, Section,
@@ -65,9 +65,7 @@ impl Ctx<'_> {
     }
 
     fn unit(&self, column: &str) -> String {
-        self.meta(column)
-            .and_then(|m| m.unit.clone())
-            .unwrap_or_default()
+        self.meta(column).and_then(|m| m.unit.clone()).unwrap_or_default()
     }
 
     fn term(&self, term: &str) -> TermInfo {
@@ -76,39 +74,19 @@ impl Ctx<'_> {
                 return info;
             }
         }
-        TermInfo {
-            label: term.to_owned(),
-            unit: String::new(),
-            transform: None,
-            level: None,
-        }
+        TermInfo { label: term.to_owned(), unit: String::new(), transform: None, level: None }
     }
 
     fn match_term(&self, p: &PredictorSpec, term: &str) -> Option<TermInfo> {
         let label = self.label(&p.column);
         let unit = self.unit(&p.column);
-        let engine_label = p
-            .transform
-            .map_or_else(|| p.column.clone(), |t| t.to_engine().label(&p.column));
+        let engine_label = p.transform.map_or_else(|| p.column.clone(), |t| t.to_engine().label(&p.column));
         if term == engine_label {
-            return Some(TermInfo {
-                label,
-                unit,
-                transform: p.transform,
-                level: None,
-            });
+            return Some(TermInfo { label, unit, transform: p.transform, level: None });
         }
         let level = term.strip_prefix(&format!("{}=", p.column))?;
-        let reference = p
-            .reference_level
-            .clone()
-            .unwrap_or_else(|| "the reference level".to_owned());
-        Some(TermInfo {
-            label,
-            unit,
-            transform: None,
-            level: Some((level.to_owned(), reference)),
-        })
+        let reference = p.reference_level.clone().unwrap_or_else(|| "the reference level".to_owned());
+        Some(TermInfo { label, unit, transform: None, level: Some((level.to_owned(), reference)) })
     }
 
     fn level(&self) -> f64 {
@@ -130,18 +108,12 @@ fn para(s: impl Into<String>) -> Block {
 }
 
 fn section(kind: SectionKind, heading: &str, blocks: Vec<Block>) -> Section {
-    Section {
-        kind,
-        heading: heading.to_owned(),
-        blocks,
-    }
+    Section { kind, heading: heading.to_owned(), blocks }
 }
 
 fn require(field: &str, value: &str) -> Result<()> {
     if value.trim().is_empty() {
-        Err(ReportError::brief(format!(
-            "the {field} is empty; the brief needs it"
-        )))
+        Err(ReportError::brief(format!("the {field} is empty; the brief needs it")))
     } else {
         Ok(())
     }
@@ -157,23 +129,14 @@ pub(super) fn build(input: &BriefInput) -> Result<Brief> {
         return Err(ReportError::brief("the fit has no coefficients"));
     }
     let response = &fit.spec.response;
-    let mut ctx = Ctx {
-        input,
-        fit,
-        response_label: String::new(),
-        response_unit: String::new(),
-    };
+    let mut ctx = Ctx { input, fit, response_label: String::new(), response_unit: String::new() };
     ctx.response_label = ctx.label(response);
     ctx.response_unit = ctx.unit(response);
     if let Some(t) = fit.spec.response_transform {
         ctx.response_label = format!("{} ({})", ctx.response_label, transform_words(t));
         ctx.response_unit = format!(
             "{} on the transformed scale",
-            if ctx.response_unit.is_empty() {
-                "units"
-            } else {
-                &ctx.response_unit
-            }
+            if ctx.response_unit.is_empty() { "units" } else { &ctx.response_unit }
         );
     }
 
@@ -193,11 +156,7 @@ pub(super) fn build(input: &BriefInput) -> Result<Brief> {
     sections.push(limitations_section(&limitations));
     sections.push(signoff_section());
     sections.push(reproducibility_section(&ctx)?);
-    let brief = Brief {
-        title,
-        sections,
-        limitations,
-    };
+    let brief = Brief { title, sections, limitations };
     brief.verify()?;
     Ok(brief)
 }
@@ -223,21 +182,14 @@ fn title_section(ctx: &Ctx<'_>) -> Section {
                 format!("Prepared by: {}", i.author.trim()),
                 format!("Date: {}", i.date.trim()),
                 format!("Produced with wardcast {}", i.wardcast_version.trim()),
-                format!(
-                    "Outcome modelled: {} ({} districts)",
-                    ctx.response_label, ctx.fit.rows_used
-                ),
+                format!("Outcome modelled: {} ({} districts)", ctx.response_label, ctx.fit.rows_used),
             ]),
         ],
     )
 }
 
 fn slopes<'a>(ctx: &Ctx<'a>) -> Vec<&'a CoefficientDoc> {
-    ctx.fit
-        .coefficients
-        .iter()
-        .filter(|c| c.term != wardcast_engine::INTERCEPT_LABEL)
-        .collect()
+    ctx.fit.coefficients.iter().filter(|c| c.term != wardcast_engine::INTERCEPT_LABEL).collect()
 }
 
 fn excludes_zero(c: &CoefficientDoc) -> bool {
@@ -281,11 +233,8 @@ fn summary_section(ctx: &Ctx<'_>) -> Section {
         ));
     }
     blocks.push(para(first));
-    let mut sentences: Vec<String> = slopes(ctx)
-        .iter()
-        .filter(|c| excludes_zero(c))
-        .map(|c| coefficient_sentence(ctx, c))
-        .collect();
+    let mut sentences: Vec<String> =
+        slopes(ctx).iter().filter(|c| excludes_zero(c)).map(|c| coefficient_sentence(ctx, c)).collect();
     if !sentences.is_empty() {
         sentences.truncate(4);
         blocks.push(Block::List(sentences));
@@ -312,11 +261,7 @@ fn coefficient_sentence(ctx: &Ctx<'_>, c: &CoefficientDoc) -> String {
     let info = ctx.term(&c.term);
     let level = ctx.level_words();
     let unit = &ctx.response_unit;
-    let unit_words = if unit.is_empty() {
-        String::new()
-    } else {
-        format!(" {unit}")
-    };
+    let unit_words = if unit.is_empty() { String::new() } else { format!(" {unit}") };
     let tail = |scale: f64| {
         format!(
             "have on average an outcome {} by {}{unit_words} ({level} interval for the difference: {} to {}).",
@@ -369,11 +314,7 @@ fn data_section(ctx: &Ctx<'_>) -> Section {
         "{} districts were used in the model; {} {} left out, each listed below with its reason.",
         fit.rows_used,
         fit.rows_dropped.len(),
-        if fit.rows_dropped.len() == 1 {
-            "was"
-        } else {
-            "were"
-        },
+        if fit.rows_dropped.len() == 1 { "was" } else { "were" },
     ))];
     let rows = ctx
         .input
@@ -392,19 +333,9 @@ fn data_section(ctx: &Ctx<'_>) -> Section {
                 Cell::text(&m.column),
                 Cell::text(m.label.clone().unwrap_or_default()),
                 Cell::text(m.unit.clone().unwrap_or_default()),
-                Cell::text(
-                    m.source
-                        .clone()
-                        .unwrap_or_else(|| "not recorded".to_owned()),
-                ),
-                m.vintage.map_or(Cell::text("not recorded"), |v| {
-                    Cell::number(f64::from(v), v.to_string())
-                }),
-                Cell::text(if used.contains(&m.column) {
-                    "used in the model"
-                } else {
-                    "context"
-                }),
+                Cell::text(m.source.clone().unwrap_or_else(|| "not recorded".to_owned())),
+                m.vintage.map_or(Cell::text("not recorded"), |v| Cell::number(f64::from(v), v.to_string())),
+                Cell::text(if used.contains(&m.column) { "used in the model" } else { "context" }),
             ]
         })
         .collect::<Vec<_>>();
@@ -414,16 +345,9 @@ fn data_section(ctx: &Ctx<'_>) -> Section {
         blocks.push(Block::Table(Table {
             name: "sources".into(),
             caption: "Columns, sources and vintages".into(),
-            columns: [
-                "Column",
-                "Label",
-                "Unit",
-                "Source (agency)",
-                "Vintage",
-                "Use",
-            ]
-            .map(String::from)
-            .to_vec(),
+            columns: ["Column", "Label", "Unit", "Source (agency)", "Vintage", "Use"]
+                .map(String::from)
+                .to_vec(),
             rows,
         }));
     }
@@ -458,20 +382,14 @@ fn data_section(ctx: &Ctx<'_>) -> Section {
             }
             blocks.push(para(text));
         }
-        None => blocks.push(para(
-            "The analysis table came from a single source; no join was made.",
-        )),
+        None => blocks.push(para("The analysis table came from a single source; no join was made.")),
     }
     if !fit.rows_dropped.is_empty() {
         blocks.push(Block::Table(Table {
             name: "exclusions".into(),
             caption: "Districts left out of the model".into(),
             columns: vec!["District".into(), "Reason".into()],
-            rows: fit
-                .rows_dropped
-                .iter()
-                .map(|d| vec![Cell::text(&d.key), Cell::text(&d.reason)])
-                .collect(),
+            rows: fit.rows_dropped.iter().map(|d| vec![Cell::text(&d.key), Cell::text(&d.reason)]).collect(),
         }));
     }
     let mut notes = ctx.input.data_notes.clone();
@@ -492,10 +410,7 @@ fn model_section(ctx: &Ctx<'_>) -> Section {
         Cell::text(&spec.response),
         Cell::text(ctx.label(&spec.response)),
         Cell::text(ctx.unit(&spec.response)),
-        Cell::text(
-            spec.response_transform
-                .map_or_else(|| "none".to_owned(), transform_words),
-        ),
+        Cell::text(spec.response_transform.map_or_else(|| "none".to_owned(), transform_words)),
     ]];
     for p in &spec.predictors {
         let t = match (&p.transform, &p.reference_level) {
@@ -514,20 +429,14 @@ fn model_section(ctx: &Ctx<'_>) -> Section {
     let mut blocks = vec![
         para(format!(
             "A linear regression fitted by {} with {} intercept; intervals are at the {} level.",
-            if spec.weights.is_some() {
-                "weighted least squares"
-            } else {
-                "ordinary least squares"
-            },
+            if spec.weights.is_some() { "weighted least squares" } else { "ordinary least squares" },
             if spec.intercept { "an" } else { "no" },
             ctx.level_words(),
         )),
         Block::Table(Table {
             name: "variables".into(),
             caption: "Response and predictors".into(),
-            columns: ["Role", "Column", "Label", "Unit", "Transform"]
-                .map(String::from)
-                .to_vec(),
+            columns: ["Role", "Column", "Label", "Unit", "Transform"].map(String::from).to_vec(),
             rows,
         }),
     ];
@@ -612,9 +521,7 @@ If the predictors were chosen after looking at these data, the p-values and inte
     blocks.push(Block::Table(Table {
         name: "partial_f".into(),
         caption: "Partial F test of each term given all others".into(),
-        columns: ["Term", "df", "Extra sum of squares", "F", "p-value"]
-            .map(String::from)
-            .to_vec(),
+        columns: ["Term", "df", "Extra sum of squares", "F", "p-value"].map(String::from).to_vec(),
         rows: fit
             .partial_f
             .iter()
@@ -642,11 +549,7 @@ fn num_cell(x: Option<f64>, f: impl Fn(f64) -> String) -> Cell {
 
 fn hc3(ctx: &Ctx<'_>, term: &str) -> Option<f64> {
     match &ctx.input.checks.as_ref()?.robust_errors {
-        Outcome::Ok { result } => result
-            .coefficients
-            .iter()
-            .find(|r| r.term == term)
-            .map(|r| r.hc3),
+        Outcome::Ok { result } => result.coefficients.iter().find(|r| r.term == term).map(|r| r.hc3),
         Outcome::Unavailable { .. } => None,
     }
 }
@@ -689,42 +592,16 @@ fn results_section(ctx: &Ctx<'_>) -> Result<Section> {
         "{INTERVAL_MEANING} The HC3 standard error does not assume equal variance across districts; where it is much larger than the classical one, the classical intervals are too narrow."
     )));
     blocks.push(Block::Subheading("What each coefficient says".into()));
-    blocks.push(Block::List(
-        slopes(ctx)
-            .iter()
-            .map(|c| coefficient_sentence(ctx, c))
-            .collect(),
-    ));
+    blocks.push(Block::List(slopes(ctx).iter().map(|c| coefficient_sentence(ctx, c)).collect()));
     let f = &fit.overall_f;
     let stats = vec![
-        stat_row(
-            "Districts used",
-            fit.rows_used as f64,
-            fit.rows_used.to_string(),
-        ),
+        stat_row("Districts used", fit.rows_used as f64, fit.rows_used.to_string()),
         stat_row("R²", fit.r_squared, fmt_fixed(fit.r_squared, 3)),
-        stat_row(
-            "Adjusted R²",
-            fit.adj_r_squared,
-            fmt_fixed(fit.adj_r_squared, 3),
-        ),
-        stat_row(
-            "Residual standard deviation",
-            fit.residual_sd,
-            fmt_sig(fit.residual_sd, 4),
-        ),
-        vec![
-            Cell::text("Global F statistic"),
-            num_cell(f.statistic.as_f64(), |x| fmt_sig(x, 4)),
-        ],
-        vec![
-            Cell::text("Degrees of freedom"),
-            Cell::text(format!("{} and {}", f.df_model, f.df_residual)),
-        ],
-        vec![
-            Cell::text("Global F p-value"),
-            num_cell(f.p_value.as_f64(), |x| fmt_p(Some(x))),
-        ],
+        stat_row("Adjusted R²", fit.adj_r_squared, fmt_fixed(fit.adj_r_squared, 3)),
+        stat_row("Residual standard deviation", fit.residual_sd, fmt_sig(fit.residual_sd, 4)),
+        vec![Cell::text("Global F statistic"), num_cell(f.statistic.as_f64(), |x| fmt_sig(x, 4))],
+        vec![Cell::text("Degrees of freedom"), Cell::text(format!("{} and {}", f.df_model, f.df_residual))],
+        vec![Cell::text("Global F p-value"), num_cell(f.p_value.as_f64(), |x| fmt_p(Some(x)))],
         stat_row("AIC", fit.likelihood.aic, fmt_sig(fit.likelihood.aic, 5)),
         stat_row("SBC", fit.likelihood.sbc, fmt_sig(fit.likelihood.sbc, 5)),
     ];
@@ -831,17 +708,9 @@ assumptions hold, and the intervals and p-values should be given little weight."
     blocks.push(Block::Table(Table {
         name: "checks".into(),
         caption: "Check verdicts".into(),
-        columns: [
-            "Check",
-            "Verdict",
-            "Test",
-            "Statistic",
-            "p-value",
-            "Threshold",
-            "What it means",
-        ]
-        .map(String::from)
-        .to_vec(),
+        columns: ["Check", "Verdict", "Test", "Statistic", "p-value", "Threshold", "What it means"]
+            .map(String::from)
+            .to_vec(),
         rows: checks
             .summary
             .iter()
@@ -873,25 +742,19 @@ assumptions hold, and the intervals and p-values should be given little weight."
                 .iter()
                 .map(|p| {
                     let pt = ScatterPoint::new(p.x, p.y).labelled(&p.key);
-                    if flagged.contains(&p.key) {
-                        pt.flagged()
-                    } else {
-                        pt
-                    }
+                    if flagged.contains(&p.key) { pt.flagged() } else { pt }
                 })
                 .collect(),
-            references: vec![Reference::Horizontal {
-                y: 0.0,
-                label: "Residual of zero".into(),
-            }],
+            references: vec![Reference::Horizontal { y: 0.0, label: "Residual of zero".into() }],
             labels: PointLabels::Flagged,
             flagged_meaning: "Influential district".into(),
-            summary:
-                "A pattern or a funnel shape would suggest a curved relation or unequal variance."
-                    .into(),
+            summary: "A pattern or a funnel shape would suggest a curved relation or unequal variance."
+                .into(),
         };
         blocks.push(Block::Figure(Figure {
-            caption: "Residuals against fitted values. Points should scatter evenly around zero with no pattern.".into(),
+            caption:
+                "Residuals against fitted values. Points should scatter evenly around zero with no pattern."
+                    .into(),
             svg: plot.render()?,
         }));
     }
@@ -918,13 +781,11 @@ assumptions hold, and the intervals and p-values should be given little weight."
             line: QqLine::Quartiles,
             labels: PointLabels::Flagged,
             flagged_meaning: "Influential district".into(),
-            summary: "Points close to the line are consistent with normally distributed residuals."
-                .into(),
+            summary: "Points close to the line are consistent with normally distributed residuals.".into(),
         };
         blocks.push(Block::Figure(Figure {
-            caption:
-                "Normal quantile plot. Points far from the line in the tails weaken the intervals."
-                    .into(),
+            caption: "Normal quantile plot. Points far from the line in the tails weaken the intervals."
+                .into(),
             svg: plot.render()?,
         }));
     }
@@ -971,12 +832,10 @@ assumptions hold, and the intervals and p-values should be given little weight."
                     .collect(),
             }));
         }
-        Outcome::Ok { .. } => {
-            blocks.push(para("No district stands out on the influence measures."))
+        Outcome::Ok { .. } => blocks.push(para("No district stands out on the influence measures.")),
+        Outcome::Unavailable { reason } => {
+            blocks.push(para(format!("The influence measures could not be computed: {reason}.")))
         }
-        Outcome::Unavailable { reason } => blocks.push(para(format!(
-            "The influence measures could not be computed: {reason}."
-        ))),
     }
     if let Outcome::Ok { result } = &checks.refit_without_flagged {
         blocks.push(para(format!(
@@ -990,16 +849,9 @@ assumptions hold, and the intervals and p-values should be given little weight."
         blocks.push(Block::Table(Table {
             name: "with_without".into(),
             caption: "Coefficients with and without the influential districts".into(),
-            columns: [
-                "Term",
-                "Estimate (all)",
-                "SE (all)",
-                "Estimate (without)",
-                "SE (without)",
-                "Change",
-            ]
-            .map(String::from)
-            .to_vec(),
+            columns: ["Term", "Estimate (all)", "SE (all)", "Estimate (without)", "SE (without)", "Change"]
+                .map(String::from)
+                .to_vec(),
             rows: result
                 .coefficients
                 .iter()
@@ -1073,9 +925,7 @@ fn district_rows(ctx: &Ctx<'_>) -> Result<Vec<DistrictRow>> {
     // fitted ± t(1 − α/2; n − p) · sqrt(MSE · (1 + h_i)) (Kutner et al. 2005, eq. 6.63, from memory).
     let t = t_quantile(1.0 - (1.0 - fit.spec.level) / 2.0, fit.df_residual as f64);
     if !t.is_finite() {
-        return Err(ReportError::brief(
-            "the prediction intervals cannot be computed for this fit",
-        ));
+        return Err(ReportError::brief("the prediction intervals cannot be computed for this fit"));
     }
     Ok(fit
         .rows
@@ -1104,32 +954,18 @@ fn districts_section(ctx: &Ctx<'_>, rows: &[DistrictRow]) -> Result<Section> {
             )],
         ));
     }
-    let higher: Vec<String> = rows
-        .iter()
-        .filter(|r| r.observed > r.high)
-        .map(|r| r.key.clone())
-        .collect();
-    let lower: Vec<String> = rows
-        .iter()
-        .filter(|r| r.observed < r.low)
-        .map(|r| r.key.clone())
-        .collect();
+    let higher: Vec<String> = rows.iter().filter(|r| r.observed > r.high).map(|r| r.key.clone()).collect();
+    let lower: Vec<String> = rows.iter().filter(|r| r.observed < r.low).map(|r| r.key.clone()).collect();
     let mut blocks = vec![para(format!(
         "For each district, the expected value is what the model gives for a district with its indicator values; the {level} prediction interval is the range a district with those values would fall in. \
 A district outside its interval is not a problem or a failure: it differs from what these indicators alone would suggest, for reasons the model does not see."
     ))];
     let mut outside = Vec::new();
     if !higher.is_empty() {
-        outside.push(format!(
-            "Higher than the indicators predict: {}.",
-            higher.join(", ")
-        ));
+        outside.push(format!("Higher than the indicators predict: {}.", higher.join(", ")));
     }
     if !lower.is_empty() {
-        outside.push(format!(
-            "Lower than the indicators predict: {}.",
-            lower.join(", ")
-        ));
+        outside.push(format!("Lower than the indicators predict: {}.", lower.join(", ")));
     }
     if outside.is_empty() {
         outside.push("Every district lies within its prediction interval.".to_owned());
@@ -1141,14 +977,9 @@ A district outside its interval is not a problem or a failure: it differs from w
         fmt_fixed(expected_outside, 1)
     ));
     blocks.push(Block::List(outside));
-    let (min, max) = rows
-        .iter()
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), r| {
-            (
-                a.min(r.observed).min(r.expected),
-                b.max(r.observed).max(r.expected),
-            )
-        });
+    let (min, max) = rows.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), r| {
+        (a.min(r.observed).min(r.expected), b.max(r.observed).max(r.expected))
+    });
     let plot = Scatter {
         title: "Observed against expected".into(),
         x_axis: Axis::new("Expected", ctx.response_unit.clone()),
@@ -1158,27 +989,18 @@ A district outside its interval is not a problem or a failure: it differs from w
             .iter()
             .map(|r| {
                 let p = ScatterPoint::new(r.expected, r.observed).labelled(&r.key);
-                if r.observed > r.high || r.observed < r.low {
-                    p.flagged()
-                } else {
-                    p
-                }
+                if r.observed > r.high || r.observed < r.low { p.flagged() } else { p }
             })
             .collect(),
         references: if min.is_finite() && max.is_finite() {
-            vec![Reference::Line {
-                intercept: 0.0,
-                slope: 1.0,
-                label: "Observed equals expected".into(),
-            }]
+            vec![Reference::Line { intercept: 0.0, slope: 1.0, label: "Observed equals expected".into() }]
         } else {
             Vec::new()
         },
         labels: PointLabels::Flagged,
         flagged_meaning: "Outside its prediction interval".into(),
-        summary:
-            "Points above the line recorded more than the indicators predict; points below, fewer."
-                .into(),
+        summary: "Points above the line recorded more than the indicators predict; points below, fewer."
+            .into(),
     };
     blocks.push(Block::Figure(Figure {
         caption: format!("Observed against expected per district; marked districts lie outside their {level} prediction interval."),
@@ -1187,16 +1009,9 @@ A district outside its interval is not a problem or a failure: it differs from w
     blocks.push(Block::Table(Table {
         name: "districts".into(),
         caption: format!("Observed and expected per district with {level} prediction intervals"),
-        columns: [
-            "District",
-            "Observed",
-            "Expected",
-            "Interval low",
-            "Interval high",
-            "Position",
-        ]
-        .map(String::from)
-        .to_vec(),
+        columns: ["District", "Observed", "Expected", "Interval low", "Interval high", "Position"]
+            .map(String::from)
+            .to_vec(),
         rows: rows
             .iter()
             .map(|r| {
@@ -1243,18 +1058,10 @@ fn allocation_section(ctx: &Ctx<'_>) -> Section {
     ))];
     let mut rules = Vec::new();
     if let Some(f) = a.floor {
-        rules.push(format!(
-            "Floor per district: {} {}.",
-            fmt_amount(f),
-            a.currency
-        ));
+        rules.push(format!("Floor per district: {} {}.", fmt_amount(f), a.currency));
     }
     if let Some(c) = a.cap {
-        rules.push(format!(
-            "Cap per district: {} {}.",
-            fmt_amount(c),
-            a.currency
-        ));
+        rules.push(format!("Cap per district: {} {}.", fmt_amount(c), a.currency));
     }
     if let (Some(seed), Some(draws)) = (a.seed, a.draws) {
         rules.push(format!(
@@ -1268,32 +1075,25 @@ fn allocation_section(ctx: &Ctx<'_>) -> Section {
     let mut columns = vec!["District".to_owned(), "This year's budget".to_owned()];
     columns.extend(a.bases.iter().map(|b| format!("Share: {b}")));
     columns.extend(["Proposed amount", "Share range low", "Share range high"].map(String::from));
-    let rows = a
-        .rows
-        .iter()
-        .map(|r| {
-            let mut row = vec![
-                Cell::text(&r.key),
-                r.current_budget
-                    .map_or(Cell::Empty, |b| Cell::number(b, fmt_amount(b))),
-            ];
-            row.extend(a.bases.iter().enumerate().map(|(j, _)| {
-                r.shares
-                    .get(j)
-                    .map_or(Cell::Empty, |s| Cell::number(*s, fmt_share(*s)))
-            }));
-            row.push(Cell::number(r.amount, fmt_amount(r.amount)));
-            row.push(
-                r.share_low
-                    .map_or(Cell::Empty, |s| Cell::number(s, fmt_share(s))),
-            );
-            row.push(
-                r.share_high
-                    .map_or(Cell::Empty, |s| Cell::number(s, fmt_share(s))),
-            );
-            row
-        })
-        .collect();
+    let rows =
+        a.rows
+            .iter()
+            .map(|r| {
+                let mut row = vec![
+                    Cell::text(&r.key),
+                    r.current_budget.map_or(Cell::Empty, |b| Cell::number(b, fmt_amount(b))),
+                ];
+                row.extend(
+                    a.bases.iter().enumerate().map(|(j, _)| {
+                        r.shares.get(j).map_or(Cell::Empty, |s| Cell::number(*s, fmt_share(*s)))
+                    }),
+                );
+                row.push(Cell::number(r.amount, fmt_amount(r.amount)));
+                row.push(r.share_low.map_or(Cell::Empty, |s| Cell::number(s, fmt_share(s))));
+                row.push(r.share_high.map_or(Cell::Empty, |s| Cell::number(s, fmt_share(s))));
+                row
+            })
+            .collect();
     blocks.push(Block::Table(Table {
         name: "allocation".into(),
         caption: "Shares under each basis and the proposed allocation".into(),
@@ -1320,23 +1120,15 @@ fn failed_checks(ctx: &Ctx<'_>) -> Vec<String> {
 
 fn limitations(ctx: &Ctx<'_>, districts: &[DistrictRow]) -> Result<Limitations> {
     let resp = in_sentence(&ctx.response_label);
-    let indicators: Vec<String> = ctx
-        .fit
-        .spec
-        .predictors
-        .iter()
-        .map(|p| in_sentence(&ctx.label(&p.column)))
-        .collect();
+    let indicators: Vec<String> =
+        ctx.fit.spec.predictors.iter().map(|p| in_sentence(&ctx.label(&p.column))).collect();
     let n = ctx.fit.rows_used;
     let population = ctx
         .input
         .columns
         .iter()
         .find(|c| c.role == wardcast_contract::dataset::ColumnRole::Population)
-        .map_or_else(
-            || "residents".to_owned(),
-            |c| in_sentence(c.label.as_deref().unwrap_or(&c.column)),
-        );
+        .map_or_else(|| "residents".to_owned(), |c| in_sentence(c.label.as_deref().unwrap_or(&c.column)));
     let failed = failed_checks(ctx);
     let weight = if ctx.input.checks.is_none() {
         "The model checks were not run, so there is no evidence that the model's assumptions hold; the intervals and p-values should bear little weight.".to_owned()
@@ -1350,10 +1142,7 @@ fn limitations(ctx: &Ctx<'_>, districts: &[DistrictRow]) -> Result<Limitations> 
             join_and(&failed)
         )
     };
-    let outside = districts
-        .iter()
-        .filter(|r| r.observed > r.high || r.observed < r.low)
-        .count();
+    let outside = districts.iter().filter(|r| r.observed > r.high || r.observed < r.low).count();
     let items = vec![
         CautionText {
             heading: Limitations::REQUIRED[0].into(),
@@ -1408,11 +1197,8 @@ fn limitations_section(l: &Limitations) -> Section {
 }
 
 /// The fields of the reviewer sign-off block.
-pub const SIGN_OFF_FIELDS: [&str; 3] = [
-    "Reviewer name",
-    "Date",
-    "Reviewed for data quality, method and equity",
-];
+pub const SIGN_OFF_FIELDS: [&str; 3] =
+    ["Reviewer name", "Date", "Reviewed for data quality, method and equity"];
 
 fn signoff_section() -> Section {
     section(
@@ -1448,19 +1234,14 @@ fn reproducibility_section(ctx: &Ctx<'_>) -> Result<Section> {
         let s: Vec<String> = choice.cv_seeds.iter().map(u64::to_string).collect();
         seeds.push(format!(
             "Model-choice cross-validation: {} folds, seeds {}.",
-            choice
-                .cv_folds
-                .map_or_else(|| "k".to_owned(), |k| k.to_string()),
+            choice.cv_folds.map_or_else(|| "k".to_owned(), |k| k.to_string()),
             s.join(", ")
         ));
     }
     if let Some(checks) = &ctx.input.checks
         && let Outcome::Ok { result } = &checks.transformations.search
     {
-        seeds.push(format!(
-            "Transformation search: {} folds, seed {}.",
-            result.folds, result.seed
-        ));
+        seeds.push(format!("Transformation search: {} folds, seed {}.", result.folds, result.seed));
     }
     if let Some(a) = &ctx.input.allocation
         && let Some(seed) = a.seed
@@ -1472,9 +1253,7 @@ fn reproducibility_section(ctx: &Ctx<'_>) -> Result<Section> {
     }
     blocks.push(Block::Subheading("Random seeds".into()));
     blocks.push(Block::List(seeds));
-    blocks.push(Block::Subheading(
-        "Model spec (wardcast JSON schema)".into(),
-    ));
+    blocks.push(Block::Subheading("Model spec (wardcast JSON schema)".into()));
     let spec = serde_json::to_string_pretty(&ctx.fit.spec)
         .map_err(|e| ReportError::brief(format!("the model spec cannot be written: {e}")))?;
     blocks.push(Block::Code(spec));
@@ -1482,12 +1261,6 @@ fn reproducibility_section(ctx: &Ctx<'_>) -> Result<Section> {
         "Produced with wardcast {}, schema {}. Formulas and their sources are listed in docs/METHODS.md; the works cited in this brief are:",
         ctx.input.wardcast_version, ctx.fit.schema_version
     )));
-    blocks.push(Block::List(
-        REFERENCES.iter().map(|s| (*s).to_owned()).collect(),
-    ));
-    Ok(section(
-        SectionKind::Reproducibility,
-        "11. Reproducibility appendix",
-        blocks,
-    ))
+    blocks.push(Block::List(REFERENCES.iter().map(|s| (*s).to_owned()).collect()));
+    Ok(section(SectionKind::Reproducibility, "11. Reproducibility appendix", blocks))
 }

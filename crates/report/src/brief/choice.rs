@@ -12,31 +12,26 @@ use crate::Result;
 /// How the analyst's model was chosen: best subsets over `candidates`, seeded CV of the best
 /// model of each size (and the analyst's model), and partial F tests of adding each other
 /// candidate to the analyst's model.
-pub fn model_choice(table: &Table, spec: &ModelSpec, candidates: &[String], cv: &ChoiceCv) -> Result<ModelChoice> {
+pub fn model_choice(
+    table: &Table,
+    spec: &ModelSpec,
+    candidates: &[String],
+    cv: &ChoiceCv,
+) -> Result<ModelChoice> {
     let mut full = spec.clone();
     full.predictors = candidates
         .iter()
         .map(|c| {
-            spec.predictors
-                .iter()
-                .find(|p| &p.column == c)
-                .cloned()
-                .unwrap_or(PredictorSpec {
-                    column: c.clone(),
-                    transform: None,
-                    reference_level: None,
-                })
+            spec.predictors.iter().find(|p| &p.column == c).cloned().unwrap_or(PredictorSpec {
+                column: c.clone(),
+                transform: None,
+                reference_level: None,
+            })
         })
         .collect();
     let design = Design::build(table, &full.to_engine()?)?;
     let cands = Candidates::from_design(&design)?;
-    let search = selection::best_subsets(
-        &cands,
-        &SearchOptions {
-            top: 10,
-            ..SearchOptions::default()
-        },
-    )?;
+    let search = selection::best_subsets(&cands, &SearchOptions { top: 10, ..SearchOptions::default() })?;
     let chosen: Vec<usize> = spec
         .predictors
         .iter()
@@ -107,10 +102,7 @@ pub fn model_choice(table: &Table, spec: &ModelSpec, candidates: &[String], cv: 
             "AIC".into(),
             "SBC".into(),
             "PRESS".into(),
-            format!(
-                "{}-fold cross-validated RMSE ({} repeats)",
-                cv.folds, cv.repeats
-            ),
+            format!("{}-fold cross-validated RMSE ({} repeats)", cv.folds, cv.repeats),
         ],
         candidates: candidates_out,
         nested_tests,
@@ -133,10 +125,6 @@ pub struct ChoiceCv {
 
 impl Default for ChoiceCv {
     fn default() -> Self {
-        Self {
-            folds: 10,
-            repeats: 5,
-            seed: 20_240_601,
-        }
+        Self { folds: 10, repeats: 5, seed: 20_240_601 }
     }
 }

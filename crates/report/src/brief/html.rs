@@ -92,17 +92,8 @@ pub fn render(brief: &Brief) -> Result<String> {
             out.push_str("</header>\n");
             continue;
         }
-        let class = if s.kind() == SectionKind::Limitations {
-            " class=\"limitations\""
-        } else {
-            ""
-        };
-        let _ = writeln!(
-            out,
-            "<section id=\"{}\"{class}>\n<h2>{}</h2>",
-            s.kind().id(),
-            escape(s.heading())
-        );
+        let class = if s.kind() == SectionKind::Limitations { " class=\"limitations\"" } else { "" };
+        let _ = writeln!(out, "<section id=\"{}\"{class}>\n<h2>{}</h2>", s.kind().id(), escape(s.heading()));
         blocks(&mut out, s.blocks());
         out.push_str("</section>\n");
     }

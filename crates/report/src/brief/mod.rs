@@ -303,11 +303,7 @@ impl Cell {
 
     /// A number with a given printed form; a non-finite value becomes text.
     pub fn number(value: f64, shown: String) -> Self {
-        if value.is_finite() {
-            Cell::Number { value, shown }
-        } else {
-            Cell::Text("not defined".to_owned())
-        }
+        if value.is_finite() { Cell::Number { value, shown } } else { Cell::Text("not defined".to_owned()) }
     }
 
     /// The printed form.
@@ -418,9 +414,7 @@ impl Limitations {
     /// [`ReportError::Brief`] when any caution is empty or a required heading is missing.
     pub fn new(items: Vec<CautionText>) -> Result<Self> {
         if items.is_empty() {
-            return Err(ReportError::brief(
-                "the limitations and cautions section is empty",
-            ));
+            return Err(ReportError::brief("the limitations and cautions section is empty"));
         }
         for item in &items {
             if item.heading.trim().is_empty() || item.text.trim().is_empty() {
@@ -514,9 +508,7 @@ impl Brief {
             })
             .collect();
         if section.blocks.is_empty() || listed.len() < Limitations::REQUIRED.len() {
-            return Err(ReportError::brief(
-                "the limitations and cautions section is empty",
-            ));
+            return Err(ReportError::brief("the limitations and cautions section is empty"));
         }
         Limitations::new(self.limitations.items.clone()).map(|_| ())
     }

@@ -20,14 +20,10 @@ use krilla_svg::{SurfaceExt, SvgSettings};
 use super::{Block, Brief, Cell, SectionKind, Table};
 use crate::{ReportError, Result};
 
-const REGULAR: &[u8] = include_bytes!(concat!(
-    env!("CARGO_MANIFEST_DIR"),
-    "/../../assets/fonts/DejaVuSans.ttf"
-));
-const BOLD: &[u8] = include_bytes!(concat!(
-    env!("CARGO_MANIFEST_DIR"),
-    "/../../assets/fonts/DejaVuSans-Bold.ttf"
-));
+const REGULAR: &[u8] =
+    include_bytes!(concat!(env!("CARGO_MANIFEST_DIR"), "/../../assets/fonts/DejaVuSans.ttf"));
+const BOLD: &[u8] =
+    include_bytes!(concat!(env!("CARGO_MANIFEST_DIR"), "/../../assets/fonts/DejaVuSans-Bold.ttf"));
 
 /// The paper size of the PDF.
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
@@ -85,12 +81,8 @@ impl Metrics {
         let units: f32 = text
             .chars()
             .map(|c| {
-                let g = self
-                    .face
-                    .glyph_index(c)
-                    .or_else(|| self.face.glyph_index('?'));
-                g.and_then(|g| self.face.glyph_hor_advance(g))
-                    .map_or(0.0, f32::from)
+                let g = self.face.glyph_index(c).or_else(|| self.face.glyph_index('?'));
+                g.and_then(|g| self.face.glyph_hor_advance(g)).map_or(0.0, f32::from)
             })
             .sum();
         units * size / self.per_em
@@ -104,36 +96,10 @@ enum Weight {
 }
 
 enum Op {
-    Text {
-        x: f32,
-        y: f32,
-        size: f32,
-        weight: Weight,
-        color: (u8, u8, u8),
-        text: String,
-    },
-    Line {
-        x1: f32,
-        y1: f32,
-        x2: f32,
-        y2: f32,
-        width: f32,
-        color: (u8, u8, u8),
-    },
-    Rect {
-        x: f32,
-        y: f32,
-        w: f32,
-        h: f32,
-        color: (u8, u8, u8),
-    },
-    Svg {
-        x: f32,
-        y: f32,
-        w: f32,
-        h: f32,
-        tree: usize,
-    },
+    Text { x: f32, y: f32, size: f32, weight: Weight, color: (u8, u8, u8), text: String },
+    Line { x1: f32, y1: f32, x2: f32, y2: f32, width: f32, color: (u8, u8, u8) },
+    Rect { x: f32, y: f32, w: f32, h: f32, color: (u8, u8, u8) },
+    Svg { x: f32, y: f32, w: f32, h: f32, tree: usize },
 }
 
 struct Layout {
@@ -188,11 +154,7 @@ impl Layout {
         for para in text.split('\n') {
             let mut line = String::new();
             for word in para.split(' ').filter(|w| !w.is_empty()) {
-                let candidate = if line.is_empty() {
-                    word.to_owned()
-                } else {
-                    format!("{line} {word}")
-                };
+                let candidate = if line.is_empty() { word.to_owned() } else { format!("{line} {word}") };
                 if m.width(&candidate, size) <= width {
                     line = candidate;
                     continue;
@@ -220,27 +182,12 @@ impl Layout {
         lines
     }
 
-    fn text_block(
-        &mut self,
-        text: &str,
-        x: f32,
-        width: f32,
-        size: f32,
-        weight: Weight,
-        color: (u8, u8, u8),
-    ) {
+    fn text_block(&mut self, text: &str, x: f32, width: f32, size: f32, weight: Weight, color: (u8, u8, u8)) {
         let lh = size * LEADING;
         for line in self.wrap(text, size, weight, width) {
             self.ensure(lh);
             self.y += lh;
-            self.push(Op::Text {
-                x,
-                y: self.y - lh * 0.25,
-                size,
-                weight,
-                color,
-                text: line,
-            });
+            self.push(Op::Text { x, y: self.y - lh * 0.25, size, weight, color, text: line });
         }
     }
 
@@ -252,14 +199,7 @@ impl Layout {
         self.text_block(text, MARGIN, self.width(), 14.0, Weight::Bold, color);
         self.y += 3.0;
         let y = self.y;
-        self.push(Op::Line {
-            x1: MARGIN,
-            y1: y,
-            x2: MARGIN + self.width(),
-            y2: y,
-            width: 1.2,
-            color,
-        });
+        self.push(Op::Line { x1: MARGIN, y1: y, x2: MARGIN + self.width(), y2: y, width: 1.2, color });
         self.y += 6.0;
     }
 
@@ -311,10 +251,7 @@ impl Layout {
         let n = t.columns.len().max(1);
         let natural: Vec<f32> = (0..n)
             .map(|j| {
-                let head = t
-                    .columns
-                    .get(j)
-                    .map_or(0.0, |c| self.bold.width(c, TABLE_SIZE));
+                let head = t.columns.get(j).map_or(0.0, |c| self.bold.width(c, TABLE_SIZE));
                 let body = t
                     .rows
                     .iter()
@@ -342,9 +279,7 @@ impl Layout {
                     .map(|w| self.regular.width(w, TABLE_SIZE))
                     .fold(0.0, f32::max);
                 let head = t.columns.get(j).map_or(0.0, |c| {
-                    c.split(' ')
-                        .map(|w| self.bold.width(w, TABLE_SIZE))
-                        .fold(0.0, f32::max)
+                    c.split(' ').map(|w| self.bold.width(w, TABLE_SIZE)).fold(0.0, f32::max)
                 });
                 body.max(head) + pad
             })
@@ -368,37 +303,20 @@ impl Layout {
         }
         let min_total: f32 = minimum.iter().sum();
         let spare = (avail - min_total).max(0.0);
-        let extra: Vec<f32> = natural
-            .iter()
-            .zip(&minimum)
-            .map(|(a, b)| (a - b).max(0.0))
-            .collect();
+        let extra: Vec<f32> = natural.iter().zip(&minimum).map(|(a, b)| (a - b).max(0.0)).collect();
         let extra_total: f32 = extra.iter().sum::<f32>().max(1e-3);
-        minimum
-            .iter()
-            .zip(&extra)
-            .map(|(m, e)| m + spare * e / extra_total)
-            .collect()
+        minimum.iter().zip(&extra).map(|(m, e)| m + spare * e / extra_total).collect()
     }
 
     fn table_row(&mut self, cells: &[(String, bool)], widths: &[f32], weight: Weight, band: bool) {
         let lh = TABLE_SIZE * 1.3;
-        let wrapped: Vec<Vec<String>> = cells
-            .iter()
-            .zip(widths)
-            .map(|((s, _), w)| self.wrap(s, TABLE_SIZE, weight, w - 6.0))
-            .collect();
+        let wrapped: Vec<Vec<String>> =
+            cells.iter().zip(widths).map(|((s, _), w)| self.wrap(s, TABLE_SIZE, weight, w - 6.0)).collect();
         let lines = wrapped.iter().map(Vec::len).max().unwrap_or(1).max(1);
         let h = lines as f32 * lh + 4.0;
         let top = self.y;
         if band {
-            self.push(Op::Rect {
-                x: MARGIN,
-                y: top,
-                w: self.width(),
-                h,
-                color: BAND,
-            });
+            self.push(Op::Rect { x: MARGIN, y: top, w: self.width(), h, color: BAND });
         }
         let mut x = MARGIN;
         for ((cell, w), (_, numeric)) in wrapped.iter().zip(widths).zip(cells) {
@@ -421,14 +339,7 @@ impl Layout {
         }
         self.y = top + h;
         let y = self.y;
-        self.push(Op::Line {
-            x1: MARGIN,
-            y1: y,
-            x2: MARGIN + self.width(),
-            y2: y,
-            width: 0.4,
-            color: RULE,
-        });
+        self.push(Op::Line { x1: MARGIN, y1: y, x2: MARGIN + self.width(), y2: y, width: 0.4, color: RULE });
     }
 
     fn row_height(&self, cells: &[(String, bool)], widths: &[f32], weight: Weight) -> f32 {
@@ -447,16 +358,10 @@ impl Layout {
         let rows: Vec<Vec<(String, bool)>> = t
             .rows
             .iter()
-            .map(|r| {
-                r.iter()
-                    .map(|c| (c.shown().to_owned(), matches!(c, Cell::Number { .. })))
-                    .collect()
-            })
+            .map(|r| r.iter().map(|c| (c.shown().to_owned(), matches!(c, Cell::Number { .. }))).collect())
             .collect();
         let head_h = self.row_height(&header, &widths, Weight::Bold);
-        let first_h = rows
-            .first()
-            .map_or(0.0, |r| self.row_height(r, &widths, Weight::Regular));
+        let first_h = rows.first().map_or(0.0, |r| self.row_height(r, &widths, Weight::Regular));
         self.ensure(14.0 + head_h + first_h);
         self.y += 4.0;
         self.text_block(&t.caption, MARGIN, self.width(), 8.5, Weight::Bold, MUTED);
@@ -474,26 +379,18 @@ impl Layout {
     }
 
     fn figure(&mut self, svg: &str, caption: &str) -> Result<()> {
-        let tree = usvg::Tree::from_str(svg, &self.svg_options).map_err(|e| {
-            ReportError::brief(format!("a chart cannot be embedded in the PDF: {e}"))
-        })?;
+        let tree = usvg::Tree::from_str(svg, &self.svg_options)
+            .map_err(|e| ReportError::brief(format!("a chart cannot be embedded in the PDF: {e}")))?;
         let size = tree.size();
         let w = self.width() * 0.88;
         let h = w * size.height() / size.width();
-        let caption_h =
-            self.wrap(caption, 8.0, Weight::Regular, self.width()).len() as f32 * 8.0 * LEADING;
+        let caption_h = self.wrap(caption, 8.0, Weight::Regular, self.width()).len() as f32 * 8.0 * LEADING;
         self.ensure(h + caption_h + 12.0);
         self.y += 6.0;
         self.trees.push(tree);
         let x = MARGIN + (self.width() - w) / 2.0;
         let index = self.trees.len() - 1;
-        self.push(Op::Svg {
-            x,
-            y: self.y,
-            w,
-            h,
-            tree: index,
-        });
+        self.push(Op::Svg { x, y: self.y, w, h, tree: index });
         self.y += h + 2.0;
         self.text_block(caption, MARGIN, self.width(), 8.0, Weight::Regular, MUTED);
         self.y += 8.0;
@@ -506,20 +403,11 @@ impl Layout {
         for raw in text.lines() {
             let indent = raw.len() - raw.trim_start().len();
             let x = MARGIN + 8.0 + self.regular.width(&" ".repeat(indent), size);
-            for line in self.wrap(
-                raw.trim_start(),
-                size,
-                Weight::Regular,
-                self.width() - 16.0 - (x - MARGIN - 8.0),
-            ) {
+            for line in
+                self.wrap(raw.trim_start(), size, Weight::Regular, self.width() - 16.0 - (x - MARGIN - 8.0))
+            {
                 self.ensure(lh);
-                self.push(Op::Rect {
-                    x: MARGIN,
-                    y: self.y,
-                    w: self.width(),
-                    h: lh,
-                    color: BAND,
-                });
+                self.push(Op::Rect { x: MARGIN, y: self.y, w: self.width(), h: lh, color: BAND });
                 self.y += lh;
                 self.push(Op::Text {
                     x,
@@ -546,20 +434,9 @@ impl Layout {
             (MARGIN, top, MARGIN, top + h),
             (MARGIN + w, top, MARGIN + w, top + h),
         ] {
-            self.push(Op::Line {
-                x1,
-                y1,
-                x2,
-                y2,
-                width: 0.8,
-                color: MUTED,
-            });
+            self.push(Op::Line { x1, y1, x2, y2, width: 0.8, color: MUTED });
         }
-        let label_w = fields
-            .iter()
-            .map(|f| self.bold.width(f, BODY))
-            .fold(0.0, f32::max)
-            + 16.0;
+        let label_w = fields.iter().map(|f| self.bold.width(f, BODY)).fold(0.0, f32::max) + 16.0;
         for (i, f) in fields.iter().enumerate() {
             let base = top + 10.0 + row * (i as f32 + 1.0) - 8.0;
             self.push(Op::Text {
@@ -585,13 +462,7 @@ impl Layout {
     fn cover(&mut self, title: &str) {
         let lines = self.wrap(title, 20.0, Weight::Bold, self.width() - 14.0);
         let h = lines.len() as f32 * 20.0 * 1.3 + 6.0;
-        self.push(Op::Rect {
-            x: MARGIN,
-            y: self.y,
-            w: 5.0,
-            h,
-            color: ACCENT,
-        });
+        self.push(Op::Rect { x: MARGIN, y: self.y, w: 5.0, h, color: ACCENT });
         for line in lines {
             self.y += 20.0 * 1.3;
             self.push(Op::Text {
@@ -608,45 +479,21 @@ impl Layout {
 }
 
 fn fill(color: (u8, u8, u8)) -> Fill {
-    Fill {
-        paint: rgb::Color::new(color.0, color.1, color.2).into(),
-        ..Fill::default()
-    }
+    Fill { paint: rgb::Color::new(color.0, color.1, color.2).into(), ..Fill::default() }
 }
 
 fn draw(surface: &mut Surface<'_>, op: &Op, fonts: &(Font, Font), trees: &[usvg::Tree]) {
     match op {
-        Op::Text {
-            x,
-            y,
-            size,
-            weight,
-            color,
-            text,
-        } => {
+        Op::Text { x, y, size, weight, color, text } => {
             surface.set_stroke(None);
             surface.set_fill(Some(fill(*color)));
             let font = match weight {
                 Weight::Regular => fonts.0.clone(),
                 Weight::Bold => fonts.1.clone(),
             };
-            surface.draw_text(
-                Point::from_xy(*x, *y),
-                font,
-                *size,
-                text,
-                false,
-                TextDirection::Auto,
-            );
+            surface.draw_text(Point::from_xy(*x, *y), font, *size, text, false, TextDirection::Auto);
         }
-        Op::Line {
-            x1,
-            y1,
-            x2,
-            y2,
-            width,
-            color,
-        } => {
+        Op::Line { x1, y1, x2, y2, width, color } => {
             let mut pb = PathBuilder::new();
             pb.move_to(*x1, *y1);
             pb.line_to(*x2, *y2);
@@ -690,10 +537,7 @@ fn draw(surface: &mut Surface<'_>, op: &Op, fonts: &(Font, Font), trees: &[usvg:
 pub fn render(brief: &Brief, options: &PdfOptions) -> Result<Vec<u8>> {
     brief.verify()?;
     let (page_w, page_h) = options.paper.size();
-    let mut svg_options = usvg::Options {
-        font_family: "DejaVu Sans".to_owned(),
-        ..usvg::Options::default()
-    };
+    let mut svg_options = usvg::Options { font_family: "DejaVu Sans".to_owned(), ..usvg::Options::default() };
     svg_options.fontdb_mut().load_font_data(REGULAR.to_vec());
     svg_options.fontdb_mut().load_font_data(BOLD.to_vec());
     let mut l = Layout {
@@ -708,16 +552,8 @@ pub fn render(brief: &Brief, options: &PdfOptions) -> Result<Vec<u8>> {
     };
     l.cover(brief.title());
     for s in brief.sections() {
-        let color = if s.kind() == SectionKind::Limitations {
-            WARN
-        } else {
-            ACCENT
-        };
-        if matches!(
-            s.kind(),
-            SectionKind::Limitations | SectionKind::Reproducibility
-        ) && l.y > MARGIN + 1.0
-        {
+        let color = if s.kind() == SectionKind::Limitations { WARN } else { ACCENT };
+        if matches!(s.kind(), SectionKind::Limitations | SectionKind::Reproducibility) && l.y > MARGIN + 1.0 {
             l.new_page();
         }
         l.heading(s.heading(), color);
@@ -740,11 +576,7 @@ pub fn render(brief: &Brief, options: &PdfOptions) -> Result<Vec<u8>> {
         .ok_or_else(|| ReportError::brief("the embedded bold font cannot be loaded"))?;
     let fonts = (regular, bold);
     let mut doc = Document::new();
-    doc.set_metadata(
-        Metadata::new()
-            .title(brief.title().to_owned())
-            .language("en".to_owned()),
-    );
+    doc.set_metadata(Metadata::new().title(brief.title().to_owned()).language("en".to_owned()));
     let settings = PageSettings::from_wh(page_w, page_h)
         .ok_or_else(|| ReportError::brief("the page size is not valid"))?;
     let total = l.pages.len();
@@ -799,6 +631,5 @@ pub fn render(brief: &Brief, options: &PdfOptions) -> Result<Vec<u8>> {
         surface.finish();
         page.finish();
     }
-    doc.finish()
-        .map_err(|e| ReportError::brief(format!("the PDF cannot be written: {e:?}")))
+    doc.finish().map_err(|e| ReportError::brief(format!("the PDF cannot be written: {e:?}")))
 }

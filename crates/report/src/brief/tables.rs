@@ -28,11 +28,7 @@ pub fn neutralise(text: &str) -> String {
 
 fn csv_field(text: &str) -> String {
     let safe = neutralise(text);
-    if safe.contains([',', '"', '\n', '\r']) {
-        format!("\"{}\"", safe.replace('"', "\"\""))
-    } else {
-        safe
-    }
+    if safe.contains([',', '"', '\n', '\r']) { format!("\"{}\"", safe.replace('"', "\"\"")) } else { safe }
 }
 
 fn csv_cell(cell: &Cell) -> String {
@@ -70,12 +66,8 @@ pub fn to_csv(brief: &Brief) -> Result<String> {
 
 fn sheet_name(t: &Table, used: &mut Vec<String>) -> String {
     // Worksheet names are at most 31 characters and may not hold []:*?/\ characters.
-    let base: String = t
-        .name
-        .chars()
-        .map(|c| if "[]:*?/\\".contains(c) { '_' } else { c })
-        .take(28)
-        .collect();
+    let base: String =
+        t.name.chars().map(|c| if "[]:*?/\\".contains(c) { '_' } else { c }).take(28).collect();
     let mut name = base.clone();
     let mut k = 2;
     while used.iter().any(|u| u.eq_ignore_ascii_case(&name)) {
@@ -104,18 +96,14 @@ pub fn to_xlsx(brief: &Brief) -> Result<Vec<u8>> {
         let ws = wb.add_worksheet();
         ws.set_name(sheet_name(t, &mut used)).map_err(xlsx_err)?;
         for (j, c) in t.columns.iter().enumerate() {
-            let col =
-                u16::try_from(j).map_err(|_| ReportError::brief("a table has too many columns"))?;
-            ws.write_string_with_format(0, col, neutralise(c), &bold)
-                .map_err(xlsx_err)?;
+            let col = u16::try_from(j).map_err(|_| ReportError::brief("a table has too many columns"))?;
+            ws.write_string_with_format(0, col, neutralise(c), &bold).map_err(xlsx_err)?;
             ws.set_column_width(col, 16).map_err(xlsx_err)?;
         }
         for (i, row) in t.rows.iter().enumerate() {
-            let r = u32::try_from(i + 1)
-                .map_err(|_| ReportError::brief("a table has too many rows"))?;
+            let r = u32::try_from(i + 1).map_err(|_| ReportError::brief("a table has too many rows"))?;
             for (j, cell) in row.iter().enumerate() {
-                let col = u16::try_from(j)
-                    .map_err(|_| ReportError::brief("a table has too many columns"))?;
+                let col = u16::try_from(j).map_err(|_| ReportError::brief("a table has too many columns"))?;
                 match cell {
                     Cell::Number { value, .. } => {
                         ws.write_number(r, col, *value).map_err(xlsx_err)?;

@@ -59,11 +59,7 @@ pub fn fmt_amount(x: f64) -> String {
         }
         out.push(c);
     }
-    if negative && out != "0" {
-        format!("-{out}")
-    } else {
-        out
-    }
+    if negative && out != "0" { format!("-{out}") } else { out }
 }
 
 /// Formats a share (a fraction) as a percentage with one decimal.
@@ -104,11 +100,7 @@ pub fn step_words(step: f64, unit: &str) -> String {
     let unit = unit.trim();
     let amount = fmt_amount(step);
     if unit.starts_with('%') {
-        let plural = if step == 1.0 {
-            "percentage point"
-        } else {
-            "percentage points"
-        };
+        let plural = if step == 1.0 { "percentage point" } else { "percentage points" };
         format!("{amount} {plural}")
     } else if unit.is_empty() {
         format!("{amount} unit{}", if step == 1.0 { "" } else { "s" })
@@ -126,11 +118,7 @@ fn singular(unit: &str) -> String {
         Some(stem) if !stem.ends_with('s') && stem.len() > 1 => stem,
         _ => first,
     };
-    if rest.is_empty() {
-        first.to_owned()
-    } else {
-        format!("{first} {rest}")
-    }
+    if rest.is_empty() { first.to_owned() } else { format!("{first} {rest}") }
 }
 
 /// The direction word for a difference.
@@ -190,13 +178,7 @@ mod tests {
         assert_eq!(readable_step(0.0004), 1000.0);
         assert_eq!(readable_step(2.5), 1.0);
         assert_eq!(step_words(1.0, "% of labour force"), "1 percentage point");
-        assert_eq!(
-            step_words(1000.0, "marks per household per year"),
-            "1,000 marks per household per year"
-        );
-        assert_eq!(
-            step_words(1.0, "outlets per 1,000 residents"),
-            "1 outlet per 1,000 residents"
-        );
+        assert_eq!(step_words(1000.0, "marks per household per year"), "1,000 marks per household per year");
+        assert_eq!(step_words(1.0, "outlets per 1,000 residents"), "1 outlet per 1,000 residents");
     }
 }

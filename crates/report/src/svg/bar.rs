@@ -1,8 +1,8 @@
 //! Horizontal bar charts, with one or several series per category.
 
 use super::doc::{
-    self, Anchor, Area, Dash, Doc, LEGEND_LINE, LegendEntry, MARGIN, Swatch, TITLE_Y, TextStyle,
-    draw_legend, draw_note, draw_title, legend_lines,
+    self, Anchor, Area, Dash, Doc, LEGEND_LINE, LegendEntry, MARGIN, Swatch, TITLE_Y, TextStyle, draw_legend,
+    draw_note, draw_title, legend_lines,
 };
 use super::scale::{LinearScale, Ticks, extent};
 use super::text::{count_of, count_verb, estimate_width, fixed, plottable, singular_of, truncate};
@@ -79,10 +79,7 @@ impl Chart for BarChart {
         let ticks = Ticks::nice(lo, hi, 6);
         let decimals = self.decimals.unwrap_or(ticks.decimals()).min(8);
         let labels: Vec<String> = self.groups.iter().map(|g| truncate(&g.label, 30)).collect();
-        let label_width = labels
-            .iter()
-            .map(|l| estimate_width(l, doc::TICK_SIZE))
-            .fold(60.0, f64::max);
+        let label_width = labels.iter().map(|l| estimate_width(l, doc::TICK_SIZE)).fold(60.0, f64::max);
         let value_width = self
             .groups
             .iter()
@@ -115,31 +112,14 @@ impl Chart for BarChart {
         // Room on both sides for value labels printed beyond the bar ends.
         let right = CHART_WIDTH - MARGIN - value_width - 10.0;
         let neg_room = if lo < 0.0 { value_width + 10.0 } else { 0.0 };
-        let area = Area {
-            left: left + neg_room,
-            top,
-            right: right.max(left + neg_room + 120.0),
-            bottom,
-        };
+        let area = Area { left: left + neg_room, top, right: right.max(left + neg_room + 120.0), bottom };
         let x = LinearScale::from_ticks(&ticks, area.left, area.right);
-        let missing = self
-            .groups
-            .iter()
-            .flat_map(|g| g.values.iter())
-            .filter(|v| !plottable(**v))
-            .count();
+        let missing = self.groups.iter().flat_map(|g| g.values.iter()).filter(|v| !plottable(**v)).count();
         let note = (missing > 0).then(|| {
-            format!(
-                "{} not drawn: the value is missing or not finite.",
-                count_of(missing, "bar", "bars")
-            )
+            format!("{} not drawn: the value is missing or not finite.", count_of(missing, "bar", "bars"))
         });
         let note_y = bottom + 84.0;
-        let height = if note.is_some() {
-            note_y + 16.0
-        } else {
-            bottom + 70.0
-        };
+        let height = if note.is_some() { note_y + 16.0 } else { bottom + 70.0 };
 
         let desc = self.describe(items, decimals, missing);
         let mut svg = Doc::new(CHART_WIDTH, height, &self.title, &desc);
@@ -148,35 +128,15 @@ impl Chart for BarChart {
         svg.open_group("grid");
         for &v in ticks.values() {
             let px = x.map(v);
-            svg.line(
-                (px, area.top),
-                (px, area.bottom),
-                palette::GRID,
-                1.0,
-                Dash::Solid,
-            );
+            svg.line((px, area.top), (px, area.bottom), palette::GRID, 1.0, Dash::Solid);
         }
         svg.close_group();
         svg.open_group("axes");
-        svg.line(
-            (area.left, area.bottom),
-            (area.right, area.bottom),
-            palette::INK,
-            1.5,
-            Dash::Solid,
-        );
-        let tick = TextStyle::new(doc::TICK_SIZE)
-            .anchor(Anchor::Middle)
-            .fill(palette::MUTED);
+        svg.line((area.left, area.bottom), (area.right, area.bottom), palette::INK, 1.5, Dash::Solid);
+        let tick = TextStyle::new(doc::TICK_SIZE).anchor(Anchor::Middle).fill(palette::MUTED);
         for &v in ticks.values() {
             let px = x.map(v);
-            svg.line(
-                (px, area.bottom),
-                (px, area.bottom + 6.0),
-                palette::INK,
-                1.5,
-                Dash::Solid,
-            );
+            svg.line((px, area.bottom), (px, area.bottom + 6.0), palette::INK, 1.5, Dash::Solid);
             svg.text((px, area.bottom + 24.0), &ticks.label(v), tick);
         }
         svg.text(
@@ -197,11 +157,7 @@ impl Chart for BarChart {
             );
             for (si, &v) in group.values.iter().enumerate() {
                 let by = gy + BAR * si as f64;
-                let text = if plottable(v) {
-                    fixed(v, decimals)
-                } else {
-                    "no value".to_owned()
-                };
+                let text = if plottable(v) { fixed(v, decimals) } else { "no value".to_owned() };
                 if !plottable(v) {
                     svg.text(
                         (zero + 6.0, by + BAR / 2.0 + 5.0),
@@ -225,11 +181,7 @@ impl Chart for BarChart {
                 );
                 let style = TextStyle::new(doc::SMALL_SIZE);
                 if v < 0.0 {
-                    svg.text(
-                        (px - 6.0, by + BAR / 2.0 + 5.0),
-                        &text,
-                        style.anchor(Anchor::End),
-                    );
+                    svg.text((px - 6.0, by + BAR / 2.0 + 5.0), &text, style.anchor(Anchor::End));
                 } else {
                     svg.text((px + 6.0, by + BAR / 2.0 + 5.0), &text, style);
                 }
@@ -237,23 +189,11 @@ impl Chart for BarChart {
         }
         svg.close_group();
         if lo < 0.0 {
-            svg.line(
-                (zero, area.top),
-                (zero, area.bottom),
-                palette::INK,
-                1.5,
-                Dash::Solid,
-            );
+            svg.line((zero, area.top), (zero, area.bottom), palette::INK, 1.5, Dash::Solid);
         }
         if let Some(t) = threshold {
             let px = x.map(t.value);
-            svg.line(
-                (px, area.top),
-                (px, area.bottom),
-                palette::ACCENT,
-                2.5,
-                Dash::Dashed,
-            );
+            svg.line((px, area.top), (px, area.bottom), palette::ACCENT, 2.5, Dash::Dashed);
         }
         if let Some(note) = note {
             draw_note(&mut svg, note_y, &note);
@@ -290,11 +230,7 @@ impl BarChart {
                     .iter()
                     .enumerate()
                     .map(|(i, v)| {
-                        let value = if plottable(*v) {
-                            fixed(*v, decimals)
-                        } else {
-                            "no value".to_owned()
-                        };
+                        let value = if plottable(*v) { fixed(*v, decimals) } else { "no value".to_owned() };
                         match self.series.get(i).filter(|_| self.series.len() > 1) {
                             Some(name) => format!("{} {}", name.trim(), value),
                             None => value,
@@ -315,11 +251,8 @@ impl BarChart {
             parts.push(format!("Values: {}{}.", listed.join("; "), more));
         }
         if let Some(t) = self.threshold.as_ref().filter(|t| plottable(t.value)) {
-            let above = self
-                .groups
-                .iter()
-                .filter(|g| g.values.iter().any(|v| plottable(*v) && *v > t.value))
-                .count();
+            let above =
+                self.groups.iter().filter(|g| g.values.iter().any(|v| plottable(*v) && *v > t.value)).count();
             parts.push(format!(
                 "A dashed line marks {} at {}; {} it.",
                 t.label.trim(),

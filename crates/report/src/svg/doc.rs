@@ -43,13 +43,7 @@ pub(crate) struct TextStyle {
 
 impl TextStyle {
     pub(crate) fn new(size: f64) -> Self {
-        Self {
-            size,
-            anchor: Anchor::Start,
-            bold: false,
-            fill: palette::INK,
-            rotate: None,
-        }
+        Self { size, anchor: Anchor::Start, bold: false, fill: palette::INK, rotate: None }
     }
     pub(crate) fn anchor(mut self, anchor: Anchor) -> Self {
         self.anchor = anchor;
@@ -97,8 +91,7 @@ impl Doc {
 
     /// Opens a group with a class name (a hook for the page's optional script).
     pub(crate) fn open_group(&mut self, class: &str) {
-        self.out
-            .push_str(&format!("<g class=\"{}\">\n", escape(class)));
+        self.out.push_str(&format!("<g class=\"{}\">\n", escape(class)));
     }
 
     /// Closes the innermost open group.
@@ -123,11 +116,7 @@ impl Doc {
             escape(fill)
         );
         if let Some((colour, width)) = stroke {
-            s.push_str(&format!(
-                " stroke=\"{}\" stroke-width=\"{}\"",
-                escape(colour),
-                coord(width)
-            ));
+            s.push_str(&format!(" stroke=\"{}\" stroke-width=\"{}\"", escape(colour), coord(width)));
         }
         self.close_shape(s, tip);
     }
@@ -182,10 +171,7 @@ impl Doc {
         if points.len() < 2 {
             return;
         }
-        let pts: Vec<String> = points
-            .iter()
-            .map(|(x, y)| format!("{},{}", coord(*x), coord(*y)))
-            .collect();
+        let pts: Vec<String> = points.iter().map(|(x, y)| format!("{},{}", coord(*x), coord(*y))).collect();
         self.out.push_str(&format!(
             "<polyline points=\"{}\" fill=\"none\" stroke=\"{}\" stroke-width=\"{}\" stroke-linejoin=\"round\"{}/>\n",
             pts.join(" "),
@@ -212,11 +198,7 @@ impl Doc {
             escape(fill)
         );
         if let Some((colour, width)) = stroke {
-            s.push_str(&format!(
-                " stroke=\"{}\" stroke-width=\"{}\"",
-                escape(colour),
-                coord(width)
-            ));
+            s.push_str(&format!(" stroke=\"{}\" stroke-width=\"{}\"", escape(colour), coord(width)));
         }
         self.close_shape(s, tip);
     }
@@ -257,12 +239,7 @@ impl Doc {
             s.push_str(" font-weight=\"bold\"");
         }
         if let Some(deg) = style.rotate {
-            s.push_str(&format!(
-                " transform=\"rotate({} {} {})\"",
-                coord(deg),
-                coord(x),
-                coord(y)
-            ));
+            s.push_str(&format!(" transform=\"rotate({} {} {})\"", coord(deg), coord(x), coord(y)));
         }
         s.push('>');
         s.push_str(&escape(content));
@@ -279,11 +256,7 @@ impl Doc {
     fn close_shape(&mut self, mut open: String, tip: Option<&str>) {
         match tip {
             Some(t) if !t.is_empty() => {
-                open.push_str(&format!(
-                    "><title>{}</title></{}>\n",
-                    escape(t),
-                    tag_of(&open)
-                ));
+                open.push_str(&format!("><title>{}</title></{}>\n", escape(t), tag_of(&open)));
             }
             _ => open.push_str("/>\n"),
         }
@@ -293,10 +266,7 @@ impl Doc {
 
 /// The element name at the start of an opening tag such as `<circle cx=...`.
 fn tag_of(open: &str) -> &str {
-    open.trim_start_matches('<')
-        .split(' ')
-        .next()
-        .unwrap_or("g")
+    open.trim_start_matches('<').split(' ').next().unwrap_or("g")
 }
 
 fn dash_attr(dash: Dash) -> &'static str {
@@ -319,10 +289,7 @@ pub(crate) struct Area {
 impl Area {
     /// Whether a pixel position lies inside the rectangle (with a small tolerance).
     pub(crate) fn contains(&self, (x, y): (f64, f64)) -> bool {
-        x >= self.left - 0.5
-            && x <= self.right + 0.5
-            && y >= self.top - 0.5
-            && y <= self.bottom + 0.5
+        x >= self.left - 0.5 && x <= self.right + 0.5 && y >= self.top - 0.5 && y <= self.bottom + 0.5
     }
 }
 
@@ -360,17 +327,9 @@ pub(crate) const TITLE_Y: f64 = 32.0;
 pub(crate) const MARGIN: f64 = 20.0;
 
 /// Lays out a chart with two numeric axes at the standard width.
-pub(crate) fn xy_layout(
-    x_ticks: Ticks,
-    y_ticks: Ticks,
-    legend_lines: usize,
-    has_note: bool,
-) -> XyLayout {
-    let widest = y_ticks
-        .values()
-        .iter()
-        .map(|v| estimate_width(&y_ticks.label(*v), TICK_SIZE))
-        .fold(0.0, f64::max);
+pub(crate) fn xy_layout(x_ticks: Ticks, y_ticks: Ticks, legend_lines: usize, has_note: bool) -> XyLayout {
+    let widest =
+        y_ticks.values().iter().map(|v| estimate_width(&y_ticks.label(*v), TICK_SIZE)).fold(0.0, f64::max);
     let left = MARGIN + CAPTION_SIZE + 14.0 + widest + 10.0;
     let legend_y = TITLE_Y + 30.0;
     let top = TITLE_Y + 30.0 + LEGEND_LINE * legend_lines as f64;
@@ -380,17 +339,8 @@ pub(crate) fn xy_layout(
     let last_label = estimate_width(&x_ticks.label(x_ticks.last()), TICK_SIZE);
     let right = CHART_WIDTH - MARGIN - (last_label / 2.0).max(12.0);
     let note_y = bottom + 84.0;
-    let height = if has_note {
-        note_y + 16.0
-    } else {
-        bottom + 70.0
-    };
-    let area = Area {
-        left,
-        top,
-        right,
-        bottom,
-    };
+    let height = if has_note { note_y + 16.0 } else { bottom + 70.0 };
+    let area = Area { left, top, right, bottom };
     XyLayout {
         x: LinearScale::from_ticks(&x_ticks, left, right),
         y: LinearScale::from_ticks(&y_ticks, bottom, top),
@@ -405,11 +355,7 @@ pub(crate) fn xy_layout(
 
 /// Draws the visible title.
 pub(crate) fn draw_title(doc: &mut Doc, title: &str) {
-    doc.text(
-        (MARGIN, TITLE_Y),
-        &super::text::truncate(title, 70),
-        TextStyle::new(TITLE_SIZE).bold(),
-    );
+    doc.text((MARGIN, TITLE_Y), &super::text::truncate(title, 70), TextStyle::new(TITLE_SIZE).bold());
 }
 
 /// Draws grid lines, the two axis lines, tick labels and axis captions.
@@ -426,50 +372,18 @@ pub(crate) fn draw_xy_axes(doc: &mut Doc, layout: &XyLayout, x_axis: &Axis, y_ax
     }
     doc.close_group();
     doc.open_group("axes");
-    doc.line(
-        (a.left, a.bottom),
-        (a.right, a.bottom),
-        palette::INK,
-        1.5,
-        Dash::Solid,
-    );
-    doc.line(
-        (a.left, a.top),
-        (a.left, a.bottom),
-        palette::INK,
-        1.5,
-        Dash::Solid,
-    );
+    doc.line((a.left, a.bottom), (a.right, a.bottom), palette::INK, 1.5, Dash::Solid);
+    doc.line((a.left, a.top), (a.left, a.bottom), palette::INK, 1.5, Dash::Solid);
     let tick = TextStyle::new(TICK_SIZE).fill(palette::MUTED);
     for &v in layout.x_ticks.values() {
         let x = layout.x.map(v);
-        doc.line(
-            (x, a.bottom),
-            (x, a.bottom + 6.0),
-            palette::INK,
-            1.5,
-            Dash::Solid,
-        );
-        doc.text(
-            (x, a.bottom + 24.0),
-            &layout.x_ticks.label(v),
-            tick.anchor(Anchor::Middle),
-        );
+        doc.line((x, a.bottom), (x, a.bottom + 6.0), palette::INK, 1.5, Dash::Solid);
+        doc.text((x, a.bottom + 24.0), &layout.x_ticks.label(v), tick.anchor(Anchor::Middle));
     }
     for &v in layout.y_ticks.values() {
         let y = layout.y.map(v);
-        doc.line(
-            (a.left - 6.0, y),
-            (a.left, y),
-            palette::INK,
-            1.5,
-            Dash::Solid,
-        );
-        doc.text(
-            (a.left - 10.0, y + 5.0),
-            &layout.y_ticks.label(v),
-            tick.anchor(Anchor::End),
-        );
+        doc.line((a.left - 6.0, y), (a.left, y), palette::INK, 1.5, Dash::Solid);
+        doc.text((a.left - 10.0, y + 5.0), &layout.y_ticks.label(v), tick.anchor(Anchor::End));
     }
     let caption = TextStyle::new(CAPTION_SIZE).anchor(Anchor::Middle);
     doc.text(
@@ -507,9 +421,7 @@ fn legend_positions(entries: &[LegendEntry]) -> Vec<(f64, usize, String)> {
 
 /// How many lines a legend takes (0 when there are no entries).
 pub(crate) fn legend_lines(entries: &[LegendEntry]) -> usize {
-    legend_positions(entries)
-        .last()
-        .map_or(0, |(_, line, _)| line + 1)
+    legend_positions(entries).last().map_or(0, |(_, line, _)| line + 1)
 }
 
 /// Draws a legend from the left margin, wrapping onto further lines when needed.
@@ -534,11 +446,7 @@ pub(crate) fn draw_legend(doc: &mut Doc, y: f64, entries: &[LegendEntry]) {
 
 /// Draws a note line (for example about skipped points) in muted text.
 pub(crate) fn draw_note(doc: &mut Doc, y: f64, note: &str) {
-    doc.text(
-        (MARGIN, y),
-        &super::text::truncate(note, 95),
-        TextStyle::new(SMALL_SIZE).fill(palette::MUTED),
-    );
+    doc.text((MARGIN, y), &super::text::truncate(note, 95), TextStyle::new(SMALL_SIZE).fill(palette::MUTED));
 }
 
 /// Clips the line y = intercept + slope·x to the data rectangle; returns its two ends.

@@ -1,8 +1,8 @@
 //! Effect plots: one row per coefficient, its estimate and interval on a shared axis.
 
 use super::doc::{
-    self, Anchor, Area, Dash, Doc, LEGEND_LINE, LegendEntry, MARGIN, Swatch, TITLE_Y, TextStyle,
-    draw_legend, draw_note, draw_title, legend_lines,
+    self, Anchor, Area, Dash, Doc, LEGEND_LINE, LegendEntry, MARGIN, Swatch, TITLE_Y, TextStyle, draw_legend,
+    draw_note, draw_title, legend_lines,
 };
 use super::scale::{LinearScale, Ticks, extent};
 use super::text::{count_of, count_verb, estimate_width, fixed, plottable, truncate};
@@ -55,18 +55,12 @@ impl Chart for EffectPlot {
             if plottable(row.low) && plottable(row.high) && row.low > row.high {
                 return Err(ReportError::chart(
                     CHART,
-                    format!(
-                        "the interval of \"{}\" has its lower end above its upper end",
-                        row.label.trim()
-                    ),
+                    format!("the interval of \"{}\" has its lower end above its upper end", row.label.trim()),
                 ));
             }
         }
-        let interval_name = if self.interval_name.trim().is_empty() {
-            "Interval"
-        } else {
-            self.interval_name.trim()
-        };
+        let interval_name =
+            if self.interval_name.trim().is_empty() { "Interval" } else { self.interval_name.trim() };
         let reference = self.reference.filter(|v| plottable(*v));
         let (lo, hi) = extent(
             self.rows
@@ -94,29 +88,17 @@ impl Chart for EffectPlot {
             }
         };
         let labels: Vec<String> = self.rows.iter().map(|r| truncate(&r.label, 30)).collect();
-        let label_width = labels
-            .iter()
-            .map(|l| estimate_width(l, doc::TICK_SIZE))
-            .fold(80.0, f64::max);
+        let label_width = labels.iter().map(|l| estimate_width(l, doc::TICK_SIZE)).fold(80.0, f64::max);
         let values_width = self
             .rows
             .iter()
             .map(|r| estimate_width(&value_text(r), doc::SMALL_SIZE))
-            .fold(
-                estimate_width("Estimate (interval)", doc::SMALL_SIZE),
-                f64::max,
-            );
+            .fold(estimate_width("Estimate (interval)", doc::SMALL_SIZE), f64::max);
         let left = MARGIN + label_width + 16.0;
         let right = CHART_WIDTH - MARGIN - values_width - 16.0;
         let mut legend = vec![
-            LegendEntry {
-                swatch: Swatch::Dot(palette::DATA),
-                text: "Estimate".to_owned(),
-            },
-            LegendEntry {
-                swatch: Swatch::Line(INTERVAL_TINT, Dash::Solid),
-                text: interval_name.to_owned(),
-            },
+            LegendEntry { swatch: Swatch::Dot(palette::DATA), text: "Estimate".to_owned() },
+            LegendEntry { swatch: Swatch::Line(INTERVAL_TINT, Dash::Solid), text: interval_name.to_owned() },
         ];
         if reference.is_some() && !self.reference_label.trim().is_empty() {
             legend.push(LegendEntry {
@@ -140,17 +122,8 @@ impl Chart for EffectPlot {
             )
         });
         let note_y = bottom + 84.0;
-        let height = if note.is_some() {
-            note_y + 16.0
-        } else {
-            bottom + 70.0
-        };
-        let area = Area {
-            left,
-            top,
-            right: right.max(left + 120.0),
-            bottom,
-        };
+        let height = if note.is_some() { note_y + 16.0 } else { bottom + 70.0 };
+        let area = Area { left, top, right: right.max(left + 120.0), bottom };
         let x = LinearScale::from_ticks(&ticks, area.left, area.right);
 
         let desc = self.describe(interval_name, decimals, &value_text);
@@ -160,43 +133,21 @@ impl Chart for EffectPlot {
         svg.text(
             (CHART_WIDTH - MARGIN, header_y),
             "Estimate (interval)",
-            TextStyle::new(doc::SMALL_SIZE)
-                .anchor(Anchor::End)
-                .fill(palette::MUTED),
+            TextStyle::new(doc::SMALL_SIZE).anchor(Anchor::End).fill(palette::MUTED),
         );
 
         svg.open_group("grid");
         for &v in ticks.values() {
             let px = x.map(v);
-            svg.line(
-                (px, area.top),
-                (px, area.bottom),
-                palette::GRID,
-                1.0,
-                Dash::Solid,
-            );
+            svg.line((px, area.top), (px, area.bottom), palette::GRID, 1.0, Dash::Solid);
         }
         svg.close_group();
         svg.open_group("axes");
-        svg.line(
-            (area.left, area.bottom),
-            (area.right, area.bottom),
-            palette::INK,
-            1.5,
-            Dash::Solid,
-        );
-        let tick = TextStyle::new(doc::TICK_SIZE)
-            .fill(palette::MUTED)
-            .anchor(Anchor::Middle);
+        svg.line((area.left, area.bottom), (area.right, area.bottom), palette::INK, 1.5, Dash::Solid);
+        let tick = TextStyle::new(doc::TICK_SIZE).fill(palette::MUTED).anchor(Anchor::Middle);
         for &v in ticks.values() {
             let px = x.map(v);
-            svg.line(
-                (px, area.bottom),
-                (px, area.bottom + 6.0),
-                palette::INK,
-                1.5,
-                Dash::Solid,
-            );
+            svg.line((px, area.bottom), (px, area.bottom + 6.0), palette::INK, 1.5, Dash::Solid);
             svg.text((px, area.bottom + 24.0), &ticks.label(v), tick);
         }
         svg.text(
@@ -207,13 +158,7 @@ impl Chart for EffectPlot {
         svg.close_group();
         if let Some(v) = reference {
             let px = x.map(v);
-            svg.line(
-                (px, area.top),
-                (px, area.bottom),
-                palette::REFERENCE,
-                2.0,
-                Dash::Dashed,
-            );
+            svg.line((px, area.top), (px, area.bottom), palette::REFERENCE, 2.0, Dash::Dashed);
         }
 
         svg.open_group("effects");
@@ -221,19 +166,9 @@ impl Chart for EffectPlot {
             let cy = area.top + ROW_HEIGHT * (i as f64 + 0.5);
             if i > 0 {
                 let sep = area.top + ROW_HEIGHT * i as f64;
-                svg.line(
-                    (MARGIN, sep),
-                    (CHART_WIDTH - MARGIN, sep),
-                    palette::GRID,
-                    1.0,
-                    Dash::Dotted,
-                );
+                svg.line((MARGIN, sep), (CHART_WIDTH - MARGIN, sep), palette::GRID, 1.0, Dash::Dotted);
             }
-            svg.text(
-                (left - 16.0, cy + 5.0),
-                label,
-                TextStyle::new(doc::TICK_SIZE).anchor(Anchor::End),
-            );
+            svg.text((left - 16.0, cy + 5.0), label, TextStyle::new(doc::TICK_SIZE).anchor(Anchor::End));
             let text = value_text(row);
             svg.text(
                 (CHART_WIDTH - MARGIN, cy + 5.0),
@@ -245,13 +180,7 @@ impl Chart for EffectPlot {
             }
             let tip = format!("{}: {}", row.label.trim(), text);
             if plottable(row.low) && plottable(row.high) {
-                svg.interval_bar(
-                    (x.map(row.low), x.map(row.high)),
-                    cy,
-                    12.0,
-                    INTERVAL_TINT,
-                    Some(&tip),
-                );
+                svg.interval_bar((x.map(row.low), x.map(row.high)), cy, 12.0, INTERVAL_TINT, Some(&tip));
             }
             svg.circle(
                 (x.map(row.estimate), cy),

@@ -54,12 +54,7 @@ const CHART: &str = "histogram";
 impl Chart for Histogram {
     fn render(&self) -> Result<String> {
         let items = items_or_default(&self.items);
-        let values: Vec<f64> = self
-            .values
-            .iter()
-            .copied()
-            .filter(|v| plottable(*v))
-            .collect();
+        let values: Vec<f64> = self.values.iter().copied().filter(|v| plottable(*v)).collect();
         let skipped = self.values.len() - values.len();
         let markers: Vec<&Marker> = self.markers.iter().filter(|m| plottable(m.x)).collect();
         let (lo, hi) = extent(values.iter().copied()).unwrap_or((0.0, 1.0));
@@ -69,17 +64,11 @@ impl Chart for Histogram {
                 Ticks::bins(lo, hi, k)
             }
             Bins::Count(0) => {
-                return Err(ReportError::chart(
-                    CHART,
-                    "the number of bins must be at least 1",
-                ));
+                return Err(ReportError::chart(CHART, "the number of bins must be at least 1"));
             }
             Bins::Count(k) => Ticks::bins(lo, hi, k.min(200)),
             Bins::Width(w) => Ticks::stepped(lo, hi, w).ok_or_else(|| {
-                ReportError::chart(
-                    CHART,
-                    "the bin width must be a positive number giving at most 200 bins",
-                )
+                ReportError::chart(CHART, "the bin width must be a positive number giving at most 200 bins")
             })?,
         };
         let edge_values = edges.values();
@@ -99,11 +88,7 @@ impl Chart for Histogram {
             Ticks::nice(x_lo, x_hi, 6)
         };
         // Headroom above the tallest bar leaves space for its count label.
-        let y_ticks = Ticks::integers(
-            0.0,
-            (max_count.max(1) as f64 * 1.08).max(max_count as f64 + 0.5),
-            5,
-        );
+        let y_ticks = Ticks::integers(0.0, (max_count.max(1) as f64 * 1.08).max(max_count as f64 + 0.5), 5);
         let legend: Vec<LegendEntry> = markers
             .iter()
             .enumerate()
@@ -159,13 +144,7 @@ impl Chart for Histogram {
         svg.open_group("markers");
         for (i, m) in markers.iter().enumerate() {
             let px = layout.x.map(m.x);
-            svg.line(
-                (px, layout.area.top),
-                (px, layout.area.bottom),
-                marker_colour(i),
-                2.5,
-                Dash::Dashed,
-            );
+            svg.line((px, layout.area.top), (px, layout.area.bottom), marker_colour(i), 2.5, Dash::Dashed);
         }
         svg.close_group();
         if let Some(note) = note {
@@ -213,11 +192,7 @@ impl Histogram {
             let mut sorted = values.to_vec();
             sorted.sort_by(f64::total_cmp);
             let n = sorted.len();
-            let median = if n % 2 == 1 {
-                sorted[n / 2]
-            } else {
-                (sorted[n / 2 - 1] + sorted[n / 2]) / 2.0
-            };
+            let median = if n % 2 == 1 { sorted[n / 2] } else { (sorted[n / 2 - 1] + sorted[n / 2]) / 2.0 };
             let mean = sorted.iter().sum::<f64>() / n as f64;
             parts.push(format!(
                 "Smallest {}, median {}, mean {}, largest {}.",

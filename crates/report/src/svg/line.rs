@@ -61,24 +61,11 @@ pub struct LinePlot {
 impl Chart for LinePlot {
     fn render(&self) -> Result<String> {
         let all = || self.series.iter().flat_map(|s| s.points.iter().copied());
-        let callouts: Vec<&Callout> = self
-            .callouts
-            .iter()
-            .filter(|c| plottable(c.x) && plottable(c.y))
-            .collect();
+        let callouts: Vec<&Callout> =
+            self.callouts.iter().filter(|c| plottable(c.x) && plottable(c.y)).collect();
         let valid = |p: &(f64, f64)| plottable(p.0) && plottable(p.1);
-        let x_ext = extent(
-            all()
-                .filter(valid)
-                .map(|p| p.0)
-                .chain(callouts.iter().map(|c| c.x)),
-        );
-        let y_ext = extent(
-            all()
-                .filter(valid)
-                .map(|p| p.1)
-                .chain(callouts.iter().map(|c| c.y)),
-        );
+        let x_ext = extent(all().filter(valid).map(|p| p.0).chain(callouts.iter().map(|c| c.x)));
+        let y_ext = extent(all().filter(valid).map(|p| p.1).chain(callouts.iter().map(|c| c.y)));
         let (x_lo, x_hi) = x_ext.unwrap_or((0.0, 1.0));
         let (y_lo, y_hi) = y_ext.unwrap_or((0.0, 1.0));
         let x_ticks = match self.x_ticks {
@@ -99,17 +86,9 @@ impl Chart for LinePlot {
             Vec::new()
         };
         let note = (skipped > 0).then(|| {
-            format!(
-                "{} not shown: a value is missing or not finite.",
-                count_of(skipped, "point", "points")
-            )
+            format!("{} not shown: a value is missing or not finite.", count_of(skipped, "point", "points"))
         });
-        let layout = xy_layout(
-            x_ticks,
-            Ticks::nice(y_lo, y_hi, 6),
-            legend_lines(&legend),
-            note.is_some(),
-        );
+        let layout = xy_layout(x_ticks, Ticks::nice(y_lo, y_hi, 6), legend_lines(&legend), note.is_some());
         let desc = self.describe(skipped);
         let mut svg = Doc::new(CHART_WIDTH, layout.height, &self.title, &desc);
         draw_title(&mut svg, &self.title);
@@ -121,11 +100,7 @@ impl Chart for LinePlot {
             svg.open_group("series");
             // Draw each unbroken run of finite points as its own polyline.
             let mut run: Vec<(f64, f64)> = Vec::new();
-            for p in series
-                .points
-                .iter()
-                .chain(std::iter::once(&(f64::NAN, f64::NAN)))
-            {
+            for p in series.points.iter().chain(std::iter::once(&(f64::NAN, f64::NAN))) {
                 if valid(p) {
                     run.push((layout.x.map(p.0), layout.y.map(p.1)));
                 } else {
@@ -137,11 +112,7 @@ impl Chart for LinePlot {
                 let tip = format!(
                     "{}{}{} {}, {} {}",
                     series.name.trim(),
-                    if series.name.trim().is_empty() {
-                        ""
-                    } else {
-                        ": "
-                    },
+                    if series.name.trim().is_empty() { "" } else { ": " },
                     self.x_axis.label.trim(),
                     significant(p.0, 4),
                     self.y_axis.label.trim(),
@@ -172,18 +143,11 @@ impl Chart for LinePlot {
             } else {
                 Anchor::Middle
             };
-            let ty = if py - 20.0 < layout.area.top + 4.0 {
-                py + 32.0
-            } else {
-                py - 20.0
-            };
+            let ty = if py - 20.0 < layout.area.top + 4.0 { py + 32.0 } else { py - 20.0 };
             svg.text(
                 (px, ty),
                 &text,
-                TextStyle::new(doc::SMALL_SIZE)
-                    .anchor(anchor)
-                    .bold()
-                    .fill(palette::ACCENT),
+                TextStyle::new(doc::SMALL_SIZE).anchor(anchor).bold().fill(palette::ACCENT),
             );
         }
         svg.close_group();
@@ -206,17 +170,10 @@ impl LinePlot {
             parts.push(self.summary.trim().to_owned());
         }
         for (i, s) in self.series.iter().enumerate() {
-            let name = if s.name.trim().is_empty() {
-                format!("Series {}", i + 1)
-            } else {
-                s.name.trim().to_owned()
-            };
-            let pts: Vec<(f64, f64)> = s
-                .points
-                .iter()
-                .copied()
-                .filter(|p| plottable(p.0) && plottable(p.1))
-                .collect();
+            let name =
+                if s.name.trim().is_empty() { format!("Series {}", i + 1) } else { s.name.trim().to_owned() };
+            let pts: Vec<(f64, f64)> =
+                s.points.iter().copied().filter(|p| plottable(p.0) && plottable(p.1)).collect();
             let lowest = pts.iter().min_by(|a, b| a.1.total_cmp(&b.1));
             let highest = pts.iter().max_by(|a, b| a.1.total_cmp(&b.1));
             match (lowest, highest) {
@@ -233,11 +190,7 @@ impl LinePlot {
                 _ => parts.push(format!("{name}: no points to show.")),
             }
         }
-        for c in self
-            .callouts
-            .iter()
-            .filter(|c| plottable(c.x) && plottable(c.y))
-        {
+        for c in self.callouts.iter().filter(|c| plottable(c.x) && plottable(c.y)) {
             parts.push(format!(
                 "Marked: {} ({} {}, {} {}).",
                 c.label.trim(),

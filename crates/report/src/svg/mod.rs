@@ -64,20 +64,13 @@ pub struct Axis {
 impl Axis {
     /// Builds an axis caption from a label and a unit.
     pub fn new(label: impl Into<String>, unit: impl Into<String>) -> Self {
-        Self {
-            label: label.into(),
-            unit: unit.into(),
-        }
+        Self { label: label.into(), unit: unit.into() }
     }
 
     /// The caption for a text alternative: the drawn caption, or "unnamed values" when empty.
     pub fn spoken(&self) -> String {
         let caption = self.caption();
-        if caption.is_empty() {
-            "unnamed values".to_owned()
-        } else {
-            caption
-        }
+        if caption.is_empty() { "unnamed values".to_owned() } else { caption }
     }
 
     /// The caption as drawn: "label (unit)", or the label alone without a unit.

@@ -51,12 +51,7 @@ pub fn diverging(t: f64) -> String {
     let t = t.clamp(-1.0, 1.0);
     let (end, w) = if t < 0.0 { (COLD, -t) } else { (WARM, t) };
     let mix = |a: f64, b: f64| (a + (b - a) * w).round().clamp(0.0, 255.0) as u8;
-    format!(
-        "#{:02x}{:02x}{:02x}",
-        mix(MID.0, end.0),
-        mix(MID.1, end.1),
-        mix(MID.2, end.2)
-    )
+    format!("#{:02x}{:02x}{:02x}", mix(MID.0, end.0), mix(MID.1, end.1), mix(MID.2, end.2))
 }
 
 /// Whether text on the diverging colour for `t` should be light for contrast.

@@ -62,11 +62,8 @@ pub struct QqPlot {
 impl Chart for QqPlot {
     fn render(&self) -> Result<String> {
         let items = items_or_default(&self.items);
-        let valid: Vec<&QqPoint> = self
-            .points
-            .iter()
-            .filter(|p| plottable(p.theoretical) && plottable(p.sample))
-            .collect();
+        let valid: Vec<&QqPoint> =
+            self.points.iter().filter(|p| plottable(p.theoretical) && plottable(p.sample)).collect();
         let (intercept, slope, line_name) = match self.line {
             QqLine::Quartiles => {
                 let (i, s) = quartile_line(&valid);
@@ -118,11 +115,7 @@ impl Chart for QqPlot {
                     emphasis: p.emphasis,
                 })
                 .collect(),
-            references: vec![Reference::Line {
-                intercept,
-                slope,
-                label: String::new(),
-            }],
+            references: vec![Reference::Line { intercept, slope, label: String::new() }],
             labels: self.labels,
             flagged_meaning: self.flagged_meaning.clone(),
             summary: self.summary.clone(),

@@ -85,11 +85,7 @@ impl Ticks {
                 (v * factor).round() / factor
             })
             .collect();
-        Self {
-            values,
-            step,
-            decimals,
-        }
+        Self { values, step, decimals }
     }
 
     /// The tick values, ascending.
@@ -182,11 +178,8 @@ impl LinearScale {
     ///
     /// An empty data interval is widened so the scale never divides by zero.
     pub fn new(d0: f64, d1: f64, r0: f64, r1: f64) -> Self {
-        let (d0, d1) = if (d1 - d0).abs() > 0.0 && (d1 - d0).is_finite() {
-            (d0, d1)
-        } else {
-            (d0 - 1.0, d0 + 1.0)
-        };
+        let (d0, d1) =
+            if (d1 - d0).abs() > 0.0 && (d1 - d0).is_finite() { (d0, d1) } else { (d0 - 1.0, d0 + 1.0) };
         Self { d0, d1, r0, r1 }
     }
 
@@ -208,13 +201,10 @@ impl LinearScale {
 
 /// The smallest and largest of the given values, ignoring non-finite ones.
 pub fn extent(values: impl IntoIterator<Item = f64>) -> Option<(f64, f64)> {
-    values
-        .into_iter()
-        .filter(|v| text::plottable(*v))
-        .fold(None, |acc, v| match acc {
-            None => Some((v, v)),
-            Some((lo, hi)) => Some((lo.min(v), hi.max(v))),
-        })
+    values.into_iter().filter(|v| text::plottable(*v)).fold(None, |acc, v| match acc {
+        None => Some((v, v)),
+        Some((lo, hi)) => Some((lo.min(v), hi.max(v))),
+    })
 }
 
 #[cfg(test)]

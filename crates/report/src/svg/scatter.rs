@@ -1,8 +1,8 @@
 //! Scatter plots with optional point labels and reference lines or curves.
 
 use super::doc::{
-    self, Anchor, Dash, Doc, LegendEntry, Swatch, TextStyle, clip_line, draw_legend, draw_note,
-    draw_title, draw_xy_axes, legend_lines, xy_layout,
+    self, Anchor, Dash, Doc, LegendEntry, Swatch, TextStyle, clip_line, draw_legend, draw_note, draw_title,
+    draw_xy_axes, legend_lines, xy_layout,
 };
 use super::scale::{Ticks, extent};
 use super::text::{count_of, estimate_width, plottable, significant, singular_of, truncate};
@@ -25,11 +25,7 @@ pub struct ScatterPoint {
 impl ScatterPoint {
     /// An ordinary, unlabelled point.
     pub fn new(x: f64, y: f64) -> Self {
-        Self {
-            x,
-            y,
-            ..Self::default()
-        }
+        Self { x, y, ..Self::default() }
     }
 
     /// The same point with a name.
@@ -76,9 +72,9 @@ pub enum Reference {
 impl Reference {
     fn label(&self) -> &str {
         match self {
-            Self::Horizontal { label, .. }
-            | Self::Line { label, .. }
-            | Self::Curve { label, .. } => label.trim(),
+            Self::Horizontal { label, .. } | Self::Line { label, .. } | Self::Curve { label, .. } => {
+                label.trim()
+            }
         }
     }
 }
@@ -123,11 +119,8 @@ impl Scatter {
     /// Renders with a chart-specific opening sentence and extra description sentences.
     pub(crate) fn render_with(&self, intro: &str, extra: &[String]) -> String {
         let items = items_or_default(&self.items);
-        let shown: Vec<&ScatterPoint> = self
-            .points
-            .iter()
-            .filter(|p| plottable(p.x) && plottable(p.y))
-            .collect();
+        let shown: Vec<&ScatterPoint> =
+            self.points.iter().filter(|p| plottable(p.x) && plottable(p.y)).collect();
         let skipped = self.points.len() - shown.len();
 
         let curve_points = || {
@@ -138,30 +131,22 @@ impl Scatter {
         };
         let x_ext = extent(shown.iter().map(|p| p.x).chain(curve_points().map(|p| p.0)));
         let y_ext = extent(
-            shown
-                .iter()
-                .map(|p| p.y)
-                .chain(curve_points().filter(|p| plottable(p.0)).map(|p| p.1))
-                .chain(self.references.iter().filter_map(|r| match r {
+            shown.iter().map(|p| p.y).chain(curve_points().filter(|p| plottable(p.0)).map(|p| p.1)).chain(
+                self.references.iter().filter_map(|r| match r {
                     Reference::Horizontal { y, .. } => Some(*y),
                     _ => None,
-                })),
+                }),
+            ),
         );
         let (x_lo, x_hi) = x_ext.unwrap_or((0.0, 1.0));
         let (y_lo, y_hi) = y_ext.unwrap_or((0.0, 1.0));
 
-        let flagged_meaning = if self.flagged_meaning.trim().is_empty() {
-            "Flagged"
-        } else {
-            self.flagged_meaning.trim()
-        };
+        let flagged_meaning =
+            if self.flagged_meaning.trim().is_empty() { "Flagged" } else { self.flagged_meaning.trim() };
         let any_flagged = shown.iter().any(|p| p.emphasis == Emphasis::Flagged);
         let mut legend = Vec::new();
         if any_flagged || self.references.iter().any(|r| !r.label().is_empty()) {
-            legend.push(LegendEntry {
-                swatch: Swatch::Dot(palette::DATA),
-                text: capitalise(items),
-            });
+            legend.push(LegendEntry { swatch: Swatch::Dot(palette::DATA), text: capitalise(items) });
         }
         if any_flagged {
             legend.push(LegendEntry {
@@ -212,9 +197,7 @@ impl Scatter {
                     );
                 }
                 Reference::Horizontal { .. } => {}
-                Reference::Line {
-                    intercept, slope, ..
-                } => {
+                Reference::Line { intercept, slope, .. } => {
                     if let Some((a, b)) = clip_line(*intercept, *slope, (dx0, dx1), (dy0, dy1)) {
                         svg.line(
                             (layout.x.map(a.0), layout.y.map(a.1)),
@@ -254,13 +237,7 @@ impl Scatter {
         };
         for p in shown.iter().filter(|p| p.emphasis == Emphasis::Normal) {
             let at = (layout.x.map(p.x), layout.y.map(p.y));
-            svg.circle(
-                at,
-                5.5,
-                palette::DATA,
-                Some((palette::PAPER, 1.0)),
-                Some(&tip(p)),
-            );
+            svg.circle(at, 5.5, palette::DATA, Some((palette::PAPER, 1.0)), Some(&tip(p)));
         }
         for p in shown.iter().filter(|p| p.emphasis == Emphasis::Flagged) {
             let at = (layout.x.map(p.x), layout.y.map(p.y));
@@ -312,10 +289,9 @@ impl Scatter {
         if !self.summary.trim().is_empty() {
             parts.push(self.summary.trim().to_owned());
         }
-        if let (Some((x0, x1)), Some((y0, y1))) = (
-            extent(shown.iter().map(|p| p.x)),
-            extent(shown.iter().map(|p| p.y)),
-        ) {
+        if let (Some((x0, x1)), Some((y0, y1))) =
+            (extent(shown.iter().map(|p| p.x)), extent(shown.iter().map(|p| p.y)))
+        {
             parts.push(format!(
                 "{} runs from {} to {}; {} from {} to {}.",
                 capitalise(&short(&self.x_axis)),
@@ -333,9 +309,7 @@ impl Scatter {
                 Reference::Horizontal { y, .. } => {
                     format!("a horizontal line at {}", significant(*y, 4))
                 }
-                Reference::Line {
-                    intercept, slope, ..
-                } => format!(
+                Reference::Line { intercept, slope, .. } => format!(
                     "a line with intercept {} and slope {}",
                     significant(*intercept, 4),
                     significant(*slope, 4)
@@ -350,10 +324,7 @@ impl Scatter {
             }
         }
         parts.extend(extra.iter().cloned());
-        let flagged: Vec<&&ScatterPoint> = shown
-            .iter()
-            .filter(|p| p.emphasis == Emphasis::Flagged)
-            .collect();
+        let flagged: Vec<&&ScatterPoint> = shown.iter().filter(|p| p.emphasis == Emphasis::Flagged).collect();
         if !flagged.is_empty() {
             let listed: Vec<String> = flagged
                 .iter()
@@ -369,11 +340,8 @@ impl Scatter {
                     )
                 })
                 .collect();
-            let more = if flagged.len() > 10 {
-                format!(", and {} more", flagged.len() - 10)
-            } else {
-                String::new()
-            };
+            let more =
+                if flagged.len() > 10 { format!(", and {} more", flagged.len() - 10) } else { String::new() };
             parts.push(format!(
                 "{} drawn as diamonds ({}): {}{}.",
                 capitalise(&count_of(flagged.len(), &singular_of(items), items)),
@@ -402,11 +370,7 @@ fn reference_dash(r: &Reference) -> Dash {
 /// The axis label without its unit, for compact text.
 fn short(axis: &Axis) -> String {
     let label = axis.label.trim();
-    if label.is_empty() {
-        axis.caption()
-    } else {
-        label.to_owned()
-    }
+    if label.is_empty() { axis.caption() } else { label.to_owned() }
 }
 
 /// The text with its first letter in upper case.

@@ -115,26 +115,12 @@ pub(crate) fn plottable(value: f64) -> bool {
 
 /// "1 point" or "3 points": a count with the noun in the right number.
 pub(crate) fn count_of(n: usize, singular: &str, plural: &str) -> String {
-    if n == 1 {
-        format!("1 {singular}")
-    } else {
-        format!("{n} {plural}")
-    }
+    if n == 1 { format!("1 {singular}") } else { format!("{n} {plural}") }
 }
 
 /// "1 point has" or "3 points have": a count, its noun and a verb that agree.
-pub(crate) fn count_verb(
-    n: usize,
-    singular: &str,
-    plural: &str,
-    verb_one: &str,
-    verb_many: &str,
-) -> String {
-    if n == 1 {
-        format!("1 {singular} {verb_one}")
-    } else {
-        format!("{n} {plural} {verb_many}")
-    }
+pub(crate) fn count_verb(n: usize, singular: &str, plural: &str, verb_one: &str, verb_many: &str) -> String {
+    if n == 1 { format!("1 {singular} {verb_one}") } else { format!("{n} {plural} {verb_many}") }
 }
 
 /// The singular of a plural noun, good enough for the nouns charts use.

@@ -12,8 +12,8 @@ use std::process::Command;
 
 use wardcast_report::brief::text::{fmt_coef, fmt_fixed};
 use wardcast_report::brief::{
-    AllocationRow, AllocationView, Brief, BriefInput, CautionText, Limitations, SectionKind, html,
-    pdf, tables,
+    AllocationRow, AllocationView, Brief, BriefInput, CautionText, Limitations, SectionKind, html, pdf,
+    tables,
 };
 
 /// The section headings in their fixed order.
@@ -38,45 +38,22 @@ fn demo_brief() -> (BriefInput, Brief) {
 }
 
 fn positions(text: &str, needles: &[&str]) -> Vec<usize> {
-    needles
-        .iter()
-        .map(|n| text.find(n).unwrap_or_else(|| panic!("{n:?} is missing")))
-        .collect()
+    needles.iter().map(|n| text.find(n).unwrap_or_else(|| panic!("{n:?} is missing"))).collect()
 }
 
 /// Asserts what every rendering of the demo brief must say, whatever the format.
 fn check_content(format: &str, text: &str, input: &BriefInput) {
     let at = positions(text, &HEADINGS);
-    assert!(
-        at.windows(2).all(|w| w[0] < w[1]),
-        "{format}: sections out of order: {at:?}"
-    );
+    assert!(at.windows(2).all(|w| w[0] < w[1]), "{format}: sections out of order: {at:?}");
     for heading in Limitations::REQUIRED {
-        assert!(
-            text.contains(heading),
-            "{format}: the caution {heading:?} is missing"
-        );
+        assert!(text.contains(heading), "{format}: the caution {heading:?} is missing");
     }
-    for cited in [
-        "Robinson 1950",
-        "Openshaw 1984",
-        "Lum & Isaac 2016",
-        "Ensign et al. 2018",
-    ] {
+    for cited in ["Robinson 1950", "Openshaw 1984", "Lum & Isaac 2016", "Ensign et al. 2018"] {
         assert!(text.contains(cited), "{format}: {cited} is not cited");
     }
-    assert!(
-        text.contains("licensed professionals"),
-        "{format}: the decision statement is missing"
-    );
-    for field in [
-        "Reviewer name",
-        "Reviewed for data quality, method and equity",
-    ] {
-        assert!(
-            text.contains(field),
-            "{format}: the sign-off field {field:?} is missing"
-        );
+    assert!(text.contains("licensed professionals"), "{format}: the decision statement is missing");
+    for field in ["Reviewer name", "Reviewed for data quality, method and equity"] {
+        assert!(text.contains(field), "{format}: the sign-off field {field:?} is missing");
     }
     assert!(
         text.contains("p-values and intervals shown for the chosen model are optimistic"),
@@ -86,11 +63,7 @@ fn check_content(format: &str, text: &str, input: &BriefInput) {
     for c in &input.fit.coefficients {
         for value in [c.estimate, c.interval.low, c.interval.high, c.std_error] {
             let shown = fmt_coef(value);
-            assert!(
-                text.contains(&shown),
-                "{format}: {} value {shown} is missing",
-                c.term
-            );
+            assert!(text.contains(&shown), "{format}: {} value {shown} is missing", c.term);
             let parsed: f64 = shown.parse().expect("a plain number");
             assert!(
                 (parsed - value).abs() <= 5e-4 * value.abs().max(1e-12),
@@ -98,13 +71,9 @@ fn check_content(format: &str, text: &str, input: &BriefInput) {
             );
         }
     }
+    assert!(text.contains(&fmt_fixed(input.fit.r_squared, 3)), "{format}: R² missing");
     assert!(
-        text.contains(&fmt_fixed(input.fit.r_squared, 3)),
-        "{format}: R² missing"
-    );
-    assert!(
-        text.contains("higher than the indicators predict")
-            || text.contains("Every district lies within")
+        text.contains("higher than the indicators predict") || text.contains("Every district lies within")
     );
     assert!(
         !text.to_lowercase().contains("problem district"),
@@ -116,30 +85,18 @@ fn check_content(format: &str, text: &str, input: &BriefInput) {
 fn html_brief_of_the_demo_analysis() {
     let (input, brief) = demo_brief();
     let page = html::render(&brief).expect("the HTML renders");
-    check_content(
-        "html",
-        &page.replace("&amp;", "&").replace("&#39;", "'"),
-        &input,
-    );
+    check_content("html", &page.replace("&amp;", "&").replace("&#39;", "'"), &input);
     // Self-contained: no script, no external resources of any kind.
-    for banned in [
-        "<script", "<link", "src=", "href=", "@import", "url(", "<iframe",
-    ] {
+    for banned in ["<script", "<link", "src=", "href=", "@import", "url(", "<iframe"] {
         assert!(!page.contains(banned), "the HTML contains {banned}");
     }
-    let http: Vec<&str> = page
-        .match_indices("http")
-        .map(|(i, _)| &page[i..(i + 30).min(page.len())])
-        .collect();
+    let http: Vec<&str> =
+        page.match_indices("http").map(|(i, _)| &page[i..(i + 30).min(page.len())]).collect();
     assert!(
-        http.iter()
-            .all(|h| h.starts_with("http://www.w3.org/2000/svg")),
+        http.iter().all(|h| h.starts_with("http://www.w3.org/2000/svg")),
         "only the SVG namespace may name a URL: {http:?}"
     );
-    assert!(
-        page.contains("@page") && page.contains("break-inside: avoid"),
-        "no print stylesheet"
-    );
+    assert!(page.contains("@page") && page.contains("break-inside: avoid"), "no print stylesheet");
     assert_eq!(
         page.matches("<svg ").count(),
         4,
@@ -158,9 +115,7 @@ fn user_text_is_escaped_in_the_html() {
     let page = html::render(&Brief::build(&input).expect("builds")).expect("renders");
     assert!(!page.contains("<script>"));
     assert!(!page.contains("<b>LK</b>"));
-    assert!(
-        page.contains("&lt;script&gt;alert(&#39;x&#39;)&lt;/script&gt; &amp; &quot;budget&quot;")
-    );
+    assert!(page.contains("&lt;script&gt;alert(&#39;x&#39;)&lt;/script&gt; &amp; &quot;budget&quot;"));
 }
 
 #[test]
@@ -169,10 +124,7 @@ fn the_brief_cannot_be_produced_without_its_limitations() {
     assert!(Limitations::new(Vec::new()).is_err());
     let mut items: Vec<CautionText> = Limitations::REQUIRED
         .iter()
-        .map(|h| CautionText {
-            heading: (*h).into(),
-            text: "Some text.".into(),
-        })
+        .map(|h| CautionText { heading: (*h).into(), text: "Some text.".into() })
         .collect();
     assert!(Limitations::new(items.clone()).is_ok());
     items[3].text = "   ".into();
@@ -184,17 +136,8 @@ fn the_brief_cannot_be_produced_without_its_limitations() {
 
     // The built brief carries every caution, written for this analysis.
     let (input, brief) = demo_brief();
-    assert_eq!(
-        brief.limitations().items().len(),
-        Limitations::REQUIRED.len()
-    );
-    assert!(
-        brief
-            .limitations()
-            .items()
-            .iter()
-            .all(|c| c.text.len() > 80)
-    );
+    assert_eq!(brief.limitations().items().len(), Limitations::REQUIRED.len());
+    assert!(brief.limitations().items().iter().all(|c| c.text.len() > 80));
     assert!(
         brief.limitations().items()[0].text.contains("unemployment"),
         "the causation caution names this analysis's indicators"
@@ -215,30 +158,17 @@ fn the_brief_cannot_be_produced_without_its_limitations() {
     let mut json = serde_json::to_value(&input).expect("serialises");
     json["include_limitations"] = serde_json::Value::Bool(false);
     let refused = serde_json::from_value::<BriefInput>(json);
-    assert!(
-        refused.is_err(),
-        "an input that tries to switch the cautions off must be refused"
-    );
+    assert!(refused.is_err(), "an input that tries to switch the cautions off must be refused");
 }
 
 #[test]
 fn missing_question_or_author_is_refused() {
     let mut input = demo::demo_input();
     input.question = "  ".into();
-    assert!(
-        Brief::build(&input)
-            .unwrap_err()
-            .to_string()
-            .contains("decision question")
-    );
+    assert!(Brief::build(&input).unwrap_err().to_string().contains("decision question"));
     let mut input = demo::demo_input();
     input.author = String::new();
-    assert!(
-        Brief::build(&input)
-            .unwrap_err()
-            .to_string()
-            .contains("author")
-    );
+    assert!(Brief::build(&input).unwrap_err().to_string().contains("author"));
 }
 
 const INJECTION: &str = "=HYPERLINK(\"http://x\",\"y\")";
@@ -277,29 +207,16 @@ fn csv_export_neutralises_formulas_and_keeps_numbers() {
         }
     }
     // Numbers stay numbers: the coefficients appear unquoted at full precision, minus signs kept.
-    let coef_lines: Vec<&str> = csv
-        .lines()
-        .filter(|l| l.starts_with("coefficients,"))
-        .collect();
+    let coef_lines: Vec<&str> = csv.lines().filter(|l| l.starts_with("coefficients,")).collect();
     assert_eq!(coef_lines.len(), input.fit.coefficients.len());
     for (line, c) in coef_lines.iter().zip(&input.fit.coefficients) {
         let fields: Vec<&str> = line.split(',').collect();
         assert_eq!(fields[1], c.term);
-        assert_eq!(
-            fields[2].parse::<f64>().expect("a number"),
-            c.estimate,
-            "{line}"
-        );
-        assert_eq!(
-            fields[3].parse::<f64>().expect("a number"),
-            c.interval.low,
-            "{line}"
-        );
+        assert_eq!(fields[2].parse::<f64>().expect("a number"), c.estimate, "{line}");
+        assert_eq!(fields[3].parse::<f64>().expect("a number"), c.interval.low, "{line}");
     }
     assert!(
-        coef_lines
-            .iter()
-            .any(|l| l.split(',').nth(2).is_some_and(|f| f.starts_with('-'))),
+        coef_lines.iter().any(|l| l.split(',').nth(2).is_some_and(|f| f.starts_with('-'))),
         "a negative number stays a number"
     );
     // Every table of the brief is in the export.
@@ -335,18 +252,9 @@ fn xlsx_export_neutralises_formulas_and_keeps_numbers() {
     assert_eq!(names.len(), brief.tables().len(), "one sheet per table");
     let districts = wb.worksheet_range("districts").expect("a districts sheet");
     let cells: Vec<&Data> = districts.used_cells().map(|(_, _, d)| d).collect();
-    assert!(
-        cells.contains(&&Data::String(format!("'{INJECTION}"))),
-        "the HYPERLINK cell is not neutralised"
-    );
-    assert!(
-        !cells
-            .iter()
-            .any(|d| matches!(d, Data::String(s) if s.starts_with('=')))
-    );
-    let coefs = wb
-        .worksheet_range("coefficients")
-        .expect("a coefficients sheet");
+    assert!(cells.contains(&&Data::String(format!("'{INJECTION}"))), "the HYPERLINK cell is not neutralised");
+    assert!(!cells.iter().any(|d| matches!(d, Data::String(s) if s.starts_with('='))));
+    let coefs = wb.worksheet_range("coefficients").expect("a coefficients sheet");
     for (i, c) in input.fit.coefficients.iter().enumerate() {
         let row = u32::try_from(i + 1).expect("small");
         assert_eq!(
@@ -392,24 +300,13 @@ fn allocation_section_appears_when_run() {
     });
     let brief = Brief::build(&input).expect("builds");
     let page = html::render(&brief).expect("renders");
-    let at = positions(
-        &page,
-        &[
-            "7. Districts",
-            "8. Scenarios and allocation",
-            "9. Limitations and cautions",
-        ],
-    );
+    let at =
+        positions(&page, &["7. Districts", "8. Scenarios and allocation", "9. Limitations and cautions"]);
     assert!(at[0] < at[1] && at[1] < at[2]);
     assert!(page.contains("sum exactly to the total"));
     assert!(page.contains("seed 7"));
-    assert!(
-        tables::to_csv(&brief)
-            .expect("csv")
-            .contains("allocation,'=LK-02,")
-    );
-    let without =
-        html::render(&Brief::build(&demo::demo_input()).expect("builds")).expect("renders");
+    assert!(tables::to_csv(&brief).expect("csv").contains("allocation,'=LK-02,"));
+    let without = html::render(&Brief::build(&demo::demo_input()).expect("builds")).expect("renders");
     assert!(without.contains("No scenario or allocation was run"));
 }
 
@@ -418,18 +315,8 @@ fn pdf_is_written_with_embedded_fonts() {
     let (_, brief) = demo_brief();
     let bytes = pdf::render(&brief, &pdf::PdfOptions::default()).expect("the PDF renders");
     assert!(bytes.starts_with(b"%PDF-"), "not a PDF");
-    assert!(
-        bytes.len() > 20_000,
-        "implausibly small PDF: {} bytes",
-        bytes.len()
-    );
-    let letter = pdf::render(
-        &brief,
-        &pdf::PdfOptions {
-            paper: pdf::Paper::Letter,
-        },
-    )
-    .expect("Letter renders");
+    assert!(bytes.len() > 20_000, "implausibly small PDF: {} bytes", bytes.len());
+    let letter = pdf::render(&brief, &pdf::PdfOptions { paper: pdf::Paper::Letter }).expect("Letter renders");
     assert!(letter.starts_with(b"%PDF-"));
 }
 
@@ -451,11 +338,7 @@ fn run(cmd: &mut Command, tool: &str) -> std::process::Output {
     let out = cmd
         .output()
         .unwrap_or_else(|e| panic!("{tool} could not be started ({e}); install Debian's poppler-utils (apt-get install -y poppler-utils)"));
-    assert!(
-        out.status.success(),
-        "{tool} failed: {}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    assert!(out.status.success(), "{tool} failed: {}", String::from_utf8_lossy(&out.stderr));
     out
 }
 
@@ -463,14 +346,7 @@ fn run(cmd: &mut Command, tool: &str) -> std::process::Output {
 #[ignore = "needs pdftotext (poppler-utils): run by .ci/run"]
 fn pdf_text_holds_every_section_caution_and_number() {
     let (input, path) = write_demo_pdf("brief-demo.pdf");
-    let out = run(
-        Command::new("pdftotext")
-            .arg("-enc")
-            .arg("UTF-8")
-            .arg(&path)
-            .arg("-"),
-        "pdftotext",
-    );
+    let out = run(Command::new("pdftotext").arg("-enc").arg("UTF-8").arg(&path).arg("-"), "pdftotext");
     let text = String::from_utf8(out.stdout).expect("UTF-8 text");
     // Lines are joined so that a wrapped sentence can be found whole.
     let joined = text.split_whitespace().collect::<Vec<_>>().join(" ");

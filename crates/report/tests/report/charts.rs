@@ -2,9 +2,9 @@
 
 use super::support::{check, element_text, normal_quantile};
 use wardcast_report::svg::{
-    Axis, BarChart, BarGroup, Bins, Callout, CorrelationHeatMap, EffectPlot, EffectRow, Histogram,
-    LinePlot, LineSeries, Marker, PointLabels, QqLine, QqPlot, QqPoint, Reference, Scatter,
-    ScatterPoint, Threshold, XTicks,
+    Axis, BarChart, BarGroup, Bins, Callout, CorrelationHeatMap, EffectPlot, EffectRow, Histogram, LinePlot,
+    LineSeries, Marker, PointLabels, QqLine, QqPlot, QqPoint, Reference, Scatter, ScatterPoint, Threshold,
+    XTicks,
 };
 
 /// One demo district: code, name, residents, assaults and vacancy (None when the cell is empty).
@@ -17,26 +17,13 @@ struct DemoRow {
 
 /// Reads the committed Larkmoor demo table (invented data) for a realistic scatter plot.
 fn demo_rows() -> Vec<DemoRow> {
-    let path = concat!(
-        env!("CARGO_MANIFEST_DIR"),
-        "/../../demo/larkmoor_districts.csv"
-    );
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/../../demo/larkmoor_districts.csv");
     let text = std::fs::read_to_string(path).expect("the demo table is committed");
     let mut lines = text.lines();
     let header: Vec<&str> = lines.next().expect("a header").split(',').collect();
-    let col = |name: &str| {
-        header
-            .iter()
-            .position(|h| *h == name)
-            .expect("a demo column")
-    };
-    let (code, name, residents, assaults, vacancy) = (
-        col("district_code"),
-        col("district_name"),
-        col("residents"),
-        col("assaults"),
-        col("vacancy_pct"),
-    );
+    let col = |name: &str| header.iter().position(|h| *h == name).expect("a demo column");
+    let (code, name, residents, assaults, vacancy) =
+        (col("district_code"), col("district_name"), col("residents"), col("assaults"), col("vacancy_pct"));
     lines
         .map(|line| {
             let f: Vec<&str> = line.split(',').collect();
@@ -98,10 +85,7 @@ fn scatter_of_the_demo_rate_against_vacancy_with_a_log_curve() {
     let svg = check("scatter_demo_vacancy", &chart);
     let desc = element_text(&svg, "desc").expect("a desc");
     assert!(desc.contains("LK-47 Harbour Arena Quarter"), "{desc}");
-    assert!(
-        desc.contains("1 district not shown"),
-        "the empty vacancy cell is reported: {desc}"
-    );
+    assert!(desc.contains("1 district not shown"), "the empty vacancy cell is reported: {desc}");
 }
 
 #[test]
@@ -122,10 +106,7 @@ fn scatter_of_residuals_with_a_zero_line_and_labels() {
         y_axis: Axis::new("Residual", "incidents per 10,000 residents"),
         items: "districts".into(),
         points,
-        references: vec![Reference::Horizontal {
-            y: 0.0,
-            label: "Residual of zero".into(),
-        }],
+        references: vec![Reference::Horizontal { y: 0.0, label: "Residual of zero".into() }],
         labels: PointLabels::All,
         flagged_meaning: "Outside its 95% prediction interval".into(),
         summary: "The spread looks even across predicted rates.".into(),
@@ -133,51 +114,20 @@ fn scatter_of_residuals_with_a_zero_line_and_labels() {
     let svg = check("scatter_residuals", &chart);
     let desc = element_text(&svg, "desc").expect("a desc");
     assert!(desc.starts_with("Scatter plot of Residual"), "{desc}");
-    assert!(
-        desc.contains("LK-08 (Predicted rate 70.60, Residual 18.70)"),
-        "{desc}"
-    );
+    assert!(desc.contains("LK-08 (Predicted rate 70.60, Residual 18.70)"), "{desc}");
 }
 
 #[test]
 fn effect_plot_of_coefficients_with_intervals() {
     let chart = EffectPlot {
         title: "Associations with the assault rate".into(),
-        axis: Axis::new(
-            "Difference in rate per unit of the indicator",
-            "per 10,000 residents",
-        ),
+        axis: Axis::new("Difference in rate per unit of the indicator", "per 10,000 residents"),
         rows: vec![
-            EffectRow {
-                label: "Unemployment (per point)".into(),
-                estimate: 4.67,
-                low: 2.10,
-                high: 7.24,
-            },
-            EffectRow {
-                label: "ln(vacancy)".into(),
-                estimate: 15.0,
-                low: 10.4,
-                high: 19.6,
-            },
-            EffectRow {
-                label: "Youth share (per point)".into(),
-                estimate: 0.97,
-                low: -0.55,
-                high: 2.49,
-            },
-            EffectRow {
-                label: "After-school seats (per 10)".into(),
-                estimate: -4.0,
-                low: -6.9,
-                high: -1.1,
-            },
-            EffectRow {
-                label: "Streetlight outages".into(),
-                estimate: 5.2,
-                low: f64::NAN,
-                high: f64::NAN,
-            },
+            EffectRow { label: "Unemployment (per point)".into(), estimate: 4.67, low: 2.10, high: 7.24 },
+            EffectRow { label: "ln(vacancy)".into(), estimate: 15.0, low: 10.4, high: 19.6 },
+            EffectRow { label: "Youth share (per point)".into(), estimate: 0.97, low: -0.55, high: 2.49 },
+            EffectRow { label: "After-school seats (per 10)".into(), estimate: -4.0, low: -6.9, high: -1.1 },
+            EffectRow { label: "Streetlight outages".into(), estimate: 5.2, low: f64::NAN, high: f64::NAN },
         ],
         interval_name: "95% confidence interval".into(),
         reference: Some(0.0),
@@ -187,14 +137,8 @@ fn effect_plot_of_coefficients_with_intervals() {
     };
     let svg = check("effect_coefficients", &chart);
     let desc = element_text(&svg, "desc").expect("a desc");
-    assert!(
-        desc.contains("Unemployment (per point): 4.67 (2.10 to 7.24)."),
-        "{desc}"
-    );
-    assert!(
-        desc.contains("Streetlight outages: 5.20 (no interval)."),
-        "{desc}"
-    );
+    assert!(desc.contains("Unemployment (per point): 4.67 (2.10 to 7.24)."), "{desc}");
+    assert!(desc.contains("Streetlight outages: 5.20 (no interval)."), "{desc}");
     assert!(desc.contains("1 interval includes it."), "{desc}");
 }
 
@@ -217,19 +161,12 @@ fn line_plot_of_a_criterion_against_model_size() {
             ],
         }],
         x_ticks: XTicks::Integers,
-        callouts: vec![Callout {
-            x: 4.0,
-            y: 4.6,
-            label: "Smallest Cp".into(),
-        }],
+        callouts: vec![Callout { x: 4.0, y: 4.6, label: "Smallest Cp".into() }],
         summary: String::new(),
     };
     let svg = check("line_cp", &chart);
     let desc = element_text(&svg, "desc").expect("a desc");
-    assert!(
-        desc.contains("lowest 4.600 at Predictors in the model 4"),
-        "{desc}"
-    );
+    assert!(desc.contains("lowest 4.600 at Predictors in the model 4"), "{desc}");
 }
 
 #[test]
@@ -241,23 +178,11 @@ fn line_plot_with_two_series_and_a_gap() {
         series: vec![
             LineSeries {
                 name: "Random folds".into(),
-                points: vec![
-                    (1.0, 19.2),
-                    (2.0, 14.1),
-                    (3.0, 11.0),
-                    (4.0, 9.6),
-                    (5.0, 9.9),
-                ],
+                points: vec![(1.0, 19.2), (2.0, 14.1), (3.0, 11.0), (4.0, 9.6), (5.0, 9.9)],
             },
             LineSeries {
                 name: "Grouped by borough".into(),
-                points: vec![
-                    (1.0, 20.5),
-                    (2.0, 15.9),
-                    (3.0, f64::NAN),
-                    (4.0, 11.8),
-                    (5.0, 12.6),
-                ],
+                points: vec![(1.0, 20.5), (2.0, 15.9), (3.0, f64::NAN), (4.0, 11.8), (5.0, 12.6)],
             },
         ],
         x_ticks: XTicks::Integers,
@@ -265,11 +190,7 @@ fn line_plot_with_two_series_and_a_gap() {
         summary: String::new(),
     };
     let svg = check("line_cv_two_series", &chart);
-    assert_eq!(
-        svg.matches("<polyline").count(),
-        3,
-        "the gap splits the second line in two"
-    );
+    assert_eq!(svg.matches("<polyline").count(), 3, "the gap splits the second line in two");
 }
 
 #[test]
@@ -305,10 +226,7 @@ fn histogram_of_residuals_with_a_marker() {
         items: "districts".into(),
         values,
         bins: Bins::Auto,
-        markers: vec![Marker {
-            x: 0.0,
-            label: "Zero".into(),
-        }],
+        markers: vec![Marker { x: 0.0, label: "Zero".into() }],
         summary: String::new(),
     };
     let svg = check("histogram_residuals", &chart);
@@ -327,8 +245,7 @@ fn histogram_with_a_fixed_bin_width() {
         axis: Axis::new("Residents", "persons"),
         items: "districts".into(),
         values: vec![
-            3230.0, 4350.0, 5110.0, 7000.0, 9580.0, 12_400.0, 13_460.0, 15_950.0, 16_240.0,
-            22_990.0,
+            3230.0, 4350.0, 5110.0, 7000.0, 9580.0, 12_400.0, 13_460.0, 15_950.0, 16_240.0, 22_990.0,
         ],
         bins: Bins::Width(2500.0),
         markers: Vec::new(),
@@ -336,17 +253,14 @@ fn histogram_with_a_fixed_bin_width() {
     };
     let svg = check("histogram_width", &chart);
     let desc = element_text(&svg, "desc").expect("a desc");
-    assert!(
-        desc.contains("9 bins of width 2500 from 2500 to 25,000"),
-        "{desc}"
-    );
+    assert!(desc.contains("9 bins of width 2500 from 2500 to 25,000"), "{desc}");
 }
 
 #[test]
 fn qq_plot_of_studentized_residuals() {
     let sample = [
-        -2.31, -1.62, -1.20, -0.95, -0.71, -0.52, -0.33, -0.14, 0.02, 0.19, 0.37, 0.55, 0.78, 1.02,
-        1.31, 1.74, 3.86,
+        -2.31, -1.62, -1.20, -0.95, -0.71, -0.52, -0.33, -0.14, 0.02, 0.19, 0.37, 0.55, 0.78, 1.02, 1.31,
+        1.74, 3.86,
     ];
     let n = sample.len() as f64;
     let points = sample
@@ -359,11 +273,7 @@ fn qq_plot_of_studentized_residuals() {
                 theoretical: normal_quantile(p),
                 sample: s,
                 label: (s > 3.0).then(|| "LK-47 Harbour Arena Quarter".to_owned()),
-                emphasis: if s > 3.0 {
-                    wardcast_report::svg::Emphasis::Flagged
-                } else {
-                    Default::default()
-                },
+                emphasis: if s > 3.0 { wardcast_report::svg::Emphasis::Flagged } else { Default::default() },
             }
         })
         .collect();
@@ -380,21 +290,12 @@ fn qq_plot_of_studentized_residuals() {
     };
     let svg = check("qq_residuals", &chart);
     let desc = element_text(&svg, "desc").expect("a desc");
-    assert!(
-        desc.contains("furthest from the line is LK-47 Harbour Arena Quarter, observed 3.860"),
-        "{desc}"
-    );
+    assert!(desc.contains("furthest from the line is LK-47 Harbour Arena Quarter, observed 3.860"), "{desc}");
 }
 
 #[test]
 fn correlation_heat_map_with_printed_values() {
-    let labels = [
-        "Median income",
-        "Unemployment",
-        "Youth share",
-        "Vacancy",
-        "After-school seats",
-    ];
+    let labels = ["Median income", "Unemployment", "Youth share", "Vacancy", "After-school seats"];
     let values = vec![
         vec![1.0, -0.85, -0.41, -0.22, 0.37],
         vec![-0.85, 1.0, 0.44, 0.27, -0.39],
@@ -411,24 +312,15 @@ fn correlation_heat_map_with_printed_values() {
         summary: String::new(),
     };
     let svg = check("heatmap_correlations", &chart);
-    assert!(
-        svg.contains(">\u{2212}0.85</text>"),
-        "values are printed in the cells"
-    );
+    assert!(svg.contains(">\u{2212}0.85</text>"), "values are printed in the cells");
     let desc = element_text(&svg, "desc").expect("a desc");
-    assert!(
-        desc.contains("Median income and Unemployment, \u{2212}0.85;"),
-        "{desc}"
-    );
+    assert!(desc.contains("Median income and Unemployment, \u{2212}0.85;"), "{desc}");
     assert!(desc.contains("2 cells have no value."), "{desc}");
 }
 
 #[test]
 fn correlation_heat_map_of_the_demo_indicators() {
-    let path = concat!(
-        env!("CARGO_MANIFEST_DIR"),
-        "/../../demo/larkmoor_districts.csv"
-    );
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/../../demo/larkmoor_districts.csv");
     let text = std::fs::read_to_string(path).expect("the demo table is committed");
     let mut lines = text.lines();
     let header: Vec<&str> = lines.next().expect("a header").split(',').collect();
@@ -439,18 +331,10 @@ fn correlation_heat_map_of_the_demo_indicators() {
         ("youth_share_pct", "Residents aged 15\u{2013}24"),
         ("vacancy_pct", "Vacant dwellings"),
         ("alcohol_outlets_per_1k", "Licensed alcohol outlets"),
-        (
-            "afterschool_seats_per_100",
-            "After-school programme seats per 100 youths",
-        ),
+        ("afterschool_seats_per_100", "After-school programme seats per 100 youths"),
         ("streetlight_outages_per_km", "Streetlight outage reports"),
     ];
-    let index = |name: &str| {
-        header
-            .iter()
-            .position(|h| *h == name)
-            .expect("a demo column")
-    };
+    let index = |name: &str| header.iter().position(|h| *h == name).expect("a demo column");
     let residents = index("residents");
     // Complete rows only, with the rate derived from the count as the loader does.
     let rows: Vec<Vec<f64>> = lines
@@ -461,11 +345,7 @@ fn correlation_heat_map_of_the_demo_indicators() {
                 .iter()
                 .map(|(c, _)| {
                     let v: f64 = f[index(c)].parse().ok()?;
-                    Some(if *c == "assaults" {
-                        v / people * 10_000.0
-                    } else {
-                        v
-                    })
+                    Some(if *c == "assaults" { v / people * 10_000.0 } else { v })
                 })
                 .collect()
         })
@@ -483,24 +363,15 @@ fn correlation_heat_map_of_the_demo_indicators() {
     let chart = CorrelationHeatMap {
         title: "Larkmoor indicators: correlations over 60 complete districts".into(),
         labels: columns.iter().map(|(_, l)| l.to_string()).collect(),
-        values: (0..k)
-            .map(|i| (0..k).map(|j| pearson(i, j)).collect())
-            .collect(),
+        values: (0..k).map(|i| (0..k).map(|j| pearson(i, j)).collect()).collect(),
         measure: "Pearson correlation".into(),
         decimals: None,
         summary: String::new(),
     };
-    assert_eq!(
-        rows.len(),
-        60,
-        "four demo districts have an empty indicator cell"
-    );
+    assert_eq!(rows.len(), 60, "four demo districts have an empty indicator cell");
     let svg = check("heatmap_demo", &chart);
     // The planted collinear pair (demo/README.md): r = -0.849 between income and unemployment.
-    assert!(
-        svg.contains("Median household income and Unemployment, \u{2212}0.85"),
-        "{svg}"
-    );
+    assert!(svg.contains("Median household income and Unemployment, \u{2212}0.85"), "{svg}");
 }
 
 #[test]
@@ -519,10 +390,7 @@ fn bar_chart_of_budgets_in_two_series() {
         series: vec!["This year's budget".into(), "Proposed allocation".into()],
         groups: groups
             .iter()
-            .map(|(l, a, b)| BarGroup {
-                label: l.to_string(),
-                values: vec![*a, *b],
-            })
+            .map(|(l, a, b)| BarGroup { label: l.to_string(), values: vec![*a, *b] })
             .collect(),
         threshold: None,
         decimals: Some(0),
@@ -531,9 +399,7 @@ fn bar_chart_of_budgets_in_two_series() {
     let svg = check("bar_budgets", &chart);
     let desc = element_text(&svg, "desc").expect("a desc");
     assert!(
-        desc.contains(
-            "LK-01 Fernhollow This year&apos;s budget 115,850, Proposed allocation 121,400"
-        ),
+        desc.contains("LK-01 Fernhollow This year&apos;s budget 115,850, Proposed allocation 121,400"),
         "{desc}"
     );
     assert!(desc.contains("1 bar has no value"), "{desc}");
@@ -554,15 +420,9 @@ fn bar_chart_with_a_threshold() {
             ("Alcohol outlets", 12.4),
         ]
         .iter()
-        .map(|(l, v)| BarGroup {
-            label: l.to_string(),
-            values: vec![*v],
-        })
+        .map(|(l, v)| BarGroup { label: l.to_string(), values: vec![*v] })
         .collect(),
-        threshold: Some(Threshold {
-            value: 10.0,
-            label: "Common rule-of-thumb limit".into(),
-        }),
+        threshold: Some(Threshold { value: 10.0, label: "Common rule-of-thumb limit".into() }),
         decimals: Some(1),
         summary: String::new(),
     };
@@ -585,18 +445,12 @@ fn bar_chart_with_negative_values() {
             ("LK-09 Slatemoor Heights", -0.8),
         ]
         .iter()
-        .map(|(l, v)| BarGroup {
-            label: l.to_string(),
-            values: vec![*v],
-        })
+        .map(|(l, v)| BarGroup { label: l.to_string(), values: vec![*v] })
         .collect(),
         threshold: None,
         decimals: Some(1),
         summary: String::new(),
     };
     let svg = check("bar_negative", &chart);
-    assert!(
-        svg.contains(">\u{2212}3.4</text>"),
-        "negative values are printed with a minus sign"
-    );
+    assert!(svg.contains(">\u{2212}3.4</text>"), "negative values are printed with a minus sign");
 }

@@ -9,10 +9,7 @@ use wardcast_report::svg::{
 fn check(case: &str, chart: &dyn Chart, expected: &str) {
     match chart.render() {
         Err(ReportError::Chart { reason, .. }) => {
-            assert!(
-                reason.contains(expected),
-                "{case}: message {reason:?} lacks {expected:?}"
-            );
+            assert!(reason.contains(expected), "{case}: message {reason:?} lacks {expected:?}");
         }
         Err(other) => panic!("{case}: unexpected error {other}"),
         Ok(_) => panic!("{case}: rendered although the data is invalid"),
@@ -53,12 +50,7 @@ fn invalid_chart_data_is_refused_with_a_plain_message() {
         (
             "effect interval upside down",
             Box::new(EffectPlot {
-                rows: vec![EffectRow {
-                    label: "Unemployment".into(),
-                    estimate: 1.0,
-                    low: 2.0,
-                    high: 0.5,
-                }],
+                rows: vec![EffectRow { label: "Unemployment".into(), estimate: 1.0, low: 2.0, high: 0.5 }],
                 ..Default::default()
             }),
             "lower end above its upper end",
@@ -67,34 +59,15 @@ fn invalid_chart_data_is_refused_with_a_plain_message() {
             "bar group with too few values",
             Box::new(BarChart {
                 series: vec!["Budget".into(), "Proposed".into()],
-                groups: vec![BarGroup {
-                    label: "LK-01".into(),
-                    values: vec![1.0],
-                }],
+                groups: vec![BarGroup { label: "LK-01".into(), values: vec![1.0] }],
                 ..Default::default()
             }),
             "\"LK-01\" has 1 values",
         ),
-        (
-            "histogram with no bins",
-            Box::new(histogram(Bins::Count(0))),
-            "at least 1",
-        ),
-        (
-            "histogram with a negative width",
-            Box::new(histogram(Bins::Width(-1.0))),
-            "positive number",
-        ),
-        (
-            "histogram with a NaN width",
-            Box::new(histogram(Bins::Width(f64::NAN))),
-            "positive number",
-        ),
-        (
-            "histogram with too many bins",
-            Box::new(histogram(Bins::Width(1e-6))),
-            "at most 200 bins",
-        ),
+        ("histogram with no bins", Box::new(histogram(Bins::Count(0))), "at least 1"),
+        ("histogram with a negative width", Box::new(histogram(Bins::Width(-1.0))), "positive number"),
+        ("histogram with a NaN width", Box::new(histogram(Bins::Width(f64::NAN))), "positive number"),
+        ("histogram with too many bins", Box::new(histogram(Bins::Width(1e-6))), "at most 200 bins"),
     ];
     for (case, chart, expected) in &cases {
         check(case, chart.as_ref(), expected);
@@ -104,18 +77,9 @@ fn invalid_chart_data_is_refused_with_a_plain_message() {
 #[test]
 fn empty_charts_render_with_a_message_instead_of_failing() {
     let charts: Vec<Box<dyn Chart>> = vec![
-        Box::new(CorrelationHeatMap {
-            title: "Empty".into(),
-            ..Default::default()
-        }),
-        Box::new(EffectPlot {
-            title: "Empty".into(),
-            ..Default::default()
-        }),
-        Box::new(BarChart {
-            title: "Empty".into(),
-            ..Default::default()
-        }),
+        Box::new(CorrelationHeatMap { title: "Empty".into(), ..Default::default() }),
+        Box::new(EffectPlot { title: "Empty".into(), ..Default::default() }),
+        Box::new(BarChart { title: "Empty".into(), ..Default::default() }),
         Box::new(histogram(Bins::Auto)),
     ];
     for chart in &charts {

@@ -2,9 +2,9 @@
 
 use super::support::{assert_invariants, element_text};
 use wardcast_report::svg::{
-    Axis, BarChart, BarGroup, Bins, Callout, Chart, CorrelationHeatMap, EffectPlot, EffectRow,
-    Histogram, LinePlot, LineSeries, Marker, PointLabels, QqLine, QqPlot, QqPoint, Reference,
-    Scatter, ScatterPoint, Threshold, XTicks,
+    Axis, BarChart, BarGroup, Bins, Callout, Chart, CorrelationHeatMap, EffectPlot, EffectRow, Histogram,
+    LinePlot, LineSeries, Marker, PointLabels, QqLine, QqPlot, QqPoint, Reference, Scatter, ScatterPoint,
+    Threshold, XTicks,
 };
 
 /// A name that breaks markup unless it is escaped.
@@ -30,15 +30,8 @@ fn every_kind(text: &str, v: &dyn Fn(usize) -> f64) -> Vec<(&'static str, Box<dy
                     })
                     .collect(),
                 references: vec![
-                    Reference::Horizontal {
-                        y: v(7),
-                        label: text.into(),
-                    },
-                    Reference::Line {
-                        intercept: v(8),
-                        slope: v(9),
-                        label: text.into(),
-                    },
+                    Reference::Horizontal { y: v(7), label: text.into() },
+                    Reference::Line { intercept: v(8), slope: v(9), label: text.into() },
                     Reference::Curve {
                         points: (0..4).map(|i| (v(i), v(i + 2))).collect(),
                         label: text.into(),
@@ -76,21 +69,11 @@ fn every_kind(text: &str, v: &dyn Fn(usize) -> f64) -> Vec<(&'static str, Box<dy
                 x_axis: axis(),
                 y_axis: axis(),
                 series: vec![
-                    LineSeries {
-                        name: text.into(),
-                        points: (0..5).map(|i| (i as f64, v(i))).collect(),
-                    },
-                    LineSeries {
-                        name: text.into(),
-                        points: (0..5).map(|i| (v(i), v(i + 3))).collect(),
-                    },
+                    LineSeries { name: text.into(), points: (0..5).map(|i| (i as f64, v(i))).collect() },
+                    LineSeries { name: text.into(), points: (0..5).map(|i| (v(i), v(i + 3))).collect() },
                 ],
                 x_ticks: XTicks::Integers,
-                callouts: vec![Callout {
-                    x: v(1),
-                    y: v(2),
-                    label: text.into(),
-                }],
+                callouts: vec![Callout { x: v(1), y: v(2), label: text.into() }],
                 summary: text.into(),
             }),
         ),
@@ -102,10 +85,7 @@ fn every_kind(text: &str, v: &dyn Fn(usize) -> f64) -> Vec<(&'static str, Box<dy
                 items: text.into(),
                 values: (0..9).map(v).collect(),
                 bins: Bins::Auto,
-                markers: vec![Marker {
-                    x: v(3),
-                    label: text.into(),
-                }],
+                markers: vec![Marker { x: v(3), label: text.into() }],
                 summary: text.into(),
             }),
         ),
@@ -135,9 +115,7 @@ fn every_kind(text: &str, v: &dyn Fn(usize) -> f64) -> Vec<(&'static str, Box<dy
             Box::new(CorrelationHeatMap {
                 title: text.into(),
                 labels: vec![text.into(), text.into(), text.into()],
-                values: (0..3)
-                    .map(|i| (0..3).map(|j| v(i * 3 + j) / 10.0).collect())
-                    .collect(),
+                values: (0..3).map(|i| (0..3).map(|j| v(i * 3 + j) / 10.0).collect()).collect(),
                 measure: text.into(),
                 decimals: None,
                 summary: text.into(),
@@ -151,15 +129,9 @@ fn every_kind(text: &str, v: &dyn Fn(usize) -> f64) -> Vec<(&'static str, Box<dy
                 items: text.into(),
                 series: vec![text.into(), text.into()],
                 groups: (0..3)
-                    .map(|i| BarGroup {
-                        label: text.into(),
-                        values: vec![v(i), v(i + 4)],
-                    })
+                    .map(|i| BarGroup { label: text.into(), values: vec![v(i), v(i + 4)] })
                     .collect(),
-                threshold: Some(Threshold {
-                    value: v(2),
-                    label: text.into(),
-                }),
+                threshold: Some(Threshold { value: v(2), label: text.into() }),
                 decimals: None,
                 summary: text.into(),
             }),
@@ -174,14 +146,8 @@ fn user_text_is_escaped_in_every_chart_kind() {
         let svg = chart.render().unwrap_or_else(|e| panic!("{kind}: {e}"));
         assert_invariants(kind, &svg);
         assert!(!svg.contains("<script"), "{kind}: raw markup leaked");
-        assert!(
-            !svg.contains("\"'&"),
-            "{kind}: raw quotes or ampersand leaked"
-        );
-        assert!(
-            svg.contains(EVIL_ESCAPED),
-            "{kind}: the escaped name is missing"
-        );
+        assert!(!svg.contains("\"'&"), "{kind}: raw quotes or ampersand leaked");
+        assert!(svg.contains(EVIL_ESCAPED), "{kind}: the escaped name is missing");
         let title = element_text(&svg, "title").expect("a title");
         assert_eq!(title, EVIL_ESCAPED, "{kind}: the title is the escaped name");
     }
@@ -192,14 +158,8 @@ fn control_characters_are_dropped_so_the_document_stays_valid() {
     let numbers = |i: usize| i as f64;
     for (kind, chart) in every_kind("bell\u{7}tab\tnul\u{0}end", &numbers) {
         let svg = chart.render().unwrap_or_else(|e| panic!("{kind}: {e}"));
-        assert!(
-            !svg.contains('\u{7}') && !svg.contains('\u{0}'),
-            "{kind}: a control character leaked"
-        );
-        assert!(
-            svg.contains("belltab nulend"),
-            "{kind}: the rest of the text is kept"
-        );
+        assert!(!svg.contains('\u{7}') && !svg.contains('\u{0}'), "{kind}: a control character leaked");
+        assert!(svg.contains("belltab nulend"), "{kind}: the rest of the text is kept");
     }
 }
 
@@ -211,16 +171,7 @@ type Pattern = (&'static str, Box<dyn Fn(usize) -> f64>);
 fn non_finite_and_degenerate_numbers_never_reach_the_output() {
     let patterns: Vec<Pattern> = vec![
         ("all NaN", Box::new(|_| f64::NAN)),
-        (
-            "all infinite",
-            Box::new(|i| {
-                if i % 2 == 0 {
-                    f64::INFINITY
-                } else {
-                    f64::NEG_INFINITY
-                }
-            }),
-        ),
+        ("all infinite", Box::new(|i| if i % 2 == 0 { f64::INFINITY } else { f64::NEG_INFINITY })),
         (
             "mixed",
             Box::new(|i| match i % 4 {
@@ -229,10 +180,7 @@ fn non_finite_and_degenerate_numbers_never_reach_the_output() {
                 _ => i as f64,
             }),
         ),
-        (
-            "huge",
-            Box::new(|i| if i % 2 == 0 { 1e300 } else { -1e300 }),
-        ),
+        ("huge", Box::new(|i| if i % 2 == 0 { 1e300 } else { -1e300 })),
         ("constant", Box::new(|_| 3.0)),
         ("tiny", Box::new(|i| i as f64 * 1e-300)),
     ];
@@ -251,33 +199,18 @@ fn skipped_points_are_reported_in_the_text_alternative() {
     for (kind, chart) in every_kind("Indicator", &numbers) {
         let svg = chart.render().unwrap_or_else(|e| panic!("{kind}: {e}"));
         let desc = element_text(&svg, "desc").expect("a desc");
-        let said = [
-            "not shown",
-            "not counted",
-            "no value",
-            "could not be drawn",
-            "no interval",
-        ]
-        .iter()
-        .any(|phrase| desc.contains(phrase));
-        assert!(
-            said,
-            "{kind}: the text alternative does not mention the skipped value: {desc}"
-        );
+        let said = ["not shown", "not counted", "no value", "could not be drawn", "no interval"]
+            .iter()
+            .any(|phrase| desc.contains(phrase));
+        assert!(said, "{kind}: the text alternative does not mention the skipped value: {desc}");
     }
 }
 
 #[test]
 fn output_is_identical_on_every_render() {
     let numbers = |i: usize| (i as f64).sqrt() * 3.3;
-    for ((kind, a), (_, b)) in every_kind("Indicator", &numbers)
-        .iter()
-        .zip(every_kind("Indicator", &numbers))
+    for ((kind, a), (_, b)) in every_kind("Indicator", &numbers).iter().zip(every_kind("Indicator", &numbers))
     {
-        assert_eq!(
-            a.render().ok(),
-            b.render().ok(),
-            "{kind}: rendering is not deterministic"
-        );
+        assert_eq!(a.render().ok(), b.render().ok(), "{kind}: rendering is not deterministic");
     }
 }

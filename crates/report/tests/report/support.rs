@@ -4,9 +4,7 @@ use wardcast_report::svg::Chart;
 
 /// Renders `chart`, asserts the structural invariants, and compares it with its snapshot.
 pub fn check(name: &str, chart: &dyn Chart) -> String {
-    let svg = chart
-        .render()
-        .unwrap_or_else(|e| panic!("{name}: render failed: {e}"));
+    let svg = chart.render().unwrap_or_else(|e| panic!("{name}: render failed: {e}"));
     assert_invariants(name, &svg);
     if let Some(dir) = std::env::var_os("WARDCAST_CHART_DIR") {
         let path = std::path::Path::new(&dir).join(format!("{name}.svg"));
@@ -28,22 +26,11 @@ pub fn assert_invariants(name: &str, svg: &str) {
     let title = element_text(svg, "title").unwrap_or_else(|| panic!("{name}: no <title>"));
     assert!(!title.trim().is_empty(), "{name}: empty <title>");
     let desc = element_text(svg, "desc").unwrap_or_else(|| panic!("{name}: no <desc>"));
-    assert!(
-        desc.len() > 40,
-        "{name}: the text alternative is too short: {desc}"
-    );
-    assert!(
-        svg.find("<title>") < svg.find("<desc>"),
-        "{name}: <title> must come first"
-    );
+    assert!(desc.len() > 40, "{name}: the text alternative is too short: {desc}");
+    assert!(svg.find("<title>") < svg.find("<desc>"), "{name}: <title> must come first");
     for size in attribute_values(svg, "font-size") {
-        let px: f64 = size
-            .parse()
-            .unwrap_or_else(|_| panic!("{name}: bad font-size {size}"));
-        assert!(
-            px >= 14.0,
-            "{name}: text of {px} px is too small for a projector"
-        );
+        let px: f64 = size.parse().unwrap_or_else(|_| panic!("{name}: bad font-size {size}"));
+        assert!(px >= 14.0, "{name}: text of {px} px is too small for a projector");
     }
     for token in svg.split(|c: char| !c.is_ascii_alphanumeric()) {
         assert!(
@@ -51,19 +38,10 @@ pub fn assert_invariants(name: &str, svg: &str) {
             "{name}: a non-finite number reached the output"
         );
     }
-    assert!(
-        !svg.contains("style="),
-        "{name}: style attributes break a strict CSP"
-    );
-    assert!(
-        !svg.contains("<style"),
-        "{name}: style elements break a strict CSP"
-    );
+    assert!(!svg.contains("style="), "{name}: style attributes break a strict CSP");
+    assert!(!svg.contains("<style"), "{name}: style elements break a strict CSP");
     assert!(!svg.contains("<script"), "{name}: scripts are not allowed");
-    assert!(
-        !svg.contains(" id=\""),
-        "{name}: ids would clash when charts share a page"
-    );
+    assert!(!svg.contains(" id=\""), "{name}: ids would clash when charts share a page");
 }
 
 /// The text of the first element with this name, entities left as written.
@@ -93,20 +71,12 @@ pub fn assert_well_formed(name: &str, svg: &str) {
     while let Some(open) = rest.find('<') {
         assert_text_is_escaped(name, &rest[..open]);
         let after = &rest[open + 1..];
-        let close = after
-            .find('>')
-            .unwrap_or_else(|| panic!("{name}: unterminated tag"));
+        let close = after.find('>').unwrap_or_else(|| panic!("{name}: unterminated tag"));
         let tag = &after[..close];
         assert!(!tag.contains('<'), "{name}: raw '<' inside a tag: {tag}");
-        assert_eq!(
-            tag.matches('"').count() % 2,
-            0,
-            "{name}: unbalanced quotes in {tag}"
-        );
+        assert_eq!(tag.matches('"').count() % 2, 0, "{name}: unbalanced quotes in {tag}");
         if let Some(end) = tag.strip_prefix('/') {
-            let top = stack
-                .pop()
-                .unwrap_or_else(|| panic!("{name}: stray </{end}>"));
+            let top = stack.pop().unwrap_or_else(|| panic!("{name}: stray </{end}>"));
             assert_eq!(top, end, "{name}: </{end}> closes <{top}>");
         } else if !tag.ends_with('/') {
             let element = tag.split_whitespace().next().unwrap_or("");
@@ -130,9 +100,7 @@ fn assert_text_is_escaped(name: &str, text: &str) {
     for (i, _) in text.match_indices('&') {
         let tail = &text[i..];
         assert!(
-            ["&amp;", "&lt;", "&gt;", "&quot;", "&apos;"]
-                .iter()
-                .any(|e| tail.starts_with(e)),
+            ["&amp;", "&lt;", "&gt;", "&quot;", "&apos;"].iter().any(|e| tail.starts_with(e)),
             "{name}: unescaped '&' in {text}"
         );
     }

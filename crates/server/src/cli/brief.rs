@@ -56,10 +56,7 @@ pub fn run(args: &BriefArgs) -> Result<ExitCode, String> {
         }
     }
     let choice = if candidates.len() > spec.predictors.len() {
-        let cv = ChoiceCv {
-            seed: args.seed,
-            ..ChoiceCv::default()
-        };
+        let cv = ChoiceCv { seed: args.seed, ..ChoiceCv::default() };
         Some(model_choice(&table, &spec, &candidates, &cv).map_err(|e| e.to_string())?)
     } else {
         None
@@ -92,25 +89,15 @@ pub fn run(args: &BriefArgs) -> Result<ExitCode, String> {
         counts_from_enforcement: true,
     };
     let brief = Brief::build(&input).map_err(|e| e.to_string())?;
-    let ext = args
-        .out
-        .extension()
-        .and_then(|e| e.to_str())
-        .unwrap_or("")
-        .to_ascii_lowercase();
+    let ext = args.out.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
     let bytes = match ext.as_str() {
         "pdf" => pdf::render(&brief, &pdf::PdfOptions::default()).map_err(|e| e.to_string())?,
-        "html" | "htm" => html::render(&brief)
-            .map_err(|e| e.to_string())?
-            .into_bytes(),
-        "csv" => tables::to_csv(&brief)
-            .map_err(|e| e.to_string())?
-            .into_bytes(),
+        "html" | "htm" => html::render(&brief).map_err(|e| e.to_string())?.into_bytes(),
+        "csv" => tables::to_csv(&brief).map_err(|e| e.to_string())?.into_bytes(),
         "xlsx" => tables::to_xlsx(&brief).map_err(|e| e.to_string())?,
         _ => return Err("--out must end in .pdf, .html, .csv or .xlsx".into()),
     };
-    std::fs::write(&args.out, bytes)
-        .map_err(|e| format!("cannot write {}: {e}", args.out.display()))?;
+    std::fs::write(&args.out, bytes).map_err(|e| format!("cannot write {}: {e}", args.out.display()))?;
     eprintln!("wrote {}", args.out.display());
     Ok(ExitCode::SUCCESS)
 }

@@ -10,7 +10,9 @@ use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
 use wardcast_contract::dataset::{ColumnRole, ColumnType, ImportReport};
-use wardcast_store::{DecimalChoice, Delimiter, Encoding, ImportOptions, Limits, RowDrop, Store, import_file};
+use wardcast_store::{
+    DecimalChoice, Delimiter, Encoding, ImportOptions, Limits, RowDrop, Store, import_file,
+};
 
 /// Flags of `wardcast import`.
 #[derive(Debug, clap::Args)]
@@ -74,7 +76,12 @@ fn pair<'a>(text: &'a str, sep: char, what: &str) -> Result<(&'a str, &'a str), 
     text.split_once(sep)
         .map(|(a, b)| (a.trim(), b.trim()))
         .filter(|(a, b)| !a.is_empty() && !b.is_empty())
-        .ok_or_else(|| format!("{what} {text:?} must look like {}", if sep == '=' { "COLUMN=VALUE" } else { "ROW:REASON" }))
+        .ok_or_else(|| {
+            format!(
+                "{what} {text:?} must look like {}",
+                if sep == '=' { "COLUMN=VALUE" } else { "ROW:REASON" }
+            )
+        })
 }
 
 /// Builds the import options from the flags.
@@ -131,7 +138,10 @@ fn open_store(dir: &Path) -> Result<Store, String> {
 }
 
 fn number(v: Option<f64>) -> String {
-    v.map_or_else(|| "-".to_owned(), |x| format!("{x:.4}").trim_end_matches('0').trim_end_matches('.').to_owned())
+    v.map_or_else(
+        || "-".to_owned(),
+        |x| format!("{x:.4}").trim_end_matches('0').trim_end_matches('.').to_owned(),
+    )
 }
 
 /// The report as plain text.
@@ -156,7 +166,12 @@ pub fn render(r: &ImportReport) -> String {
     if let Some(note) = s.decimal_note.as_ref().filter(|n| n.contains(':')) {
         out.push_str(&format!("  {note}\n"));
     }
-    out.push_str(&format!("{} rows; key: {}\n  {}\n", r.rows, r.key.as_deref().unwrap_or("none"), r.key_note));
+    out.push_str(&format!(
+        "{} rows; key: {}\n  {}\n",
+        r.rows,
+        r.key.as_deref().unwrap_or("none"),
+        r.key_note
+    ));
     out.push_str("\ncolumn | type | role | values | missing | min | max | mean | median\n");
     for c in &r.columns {
         out.push_str(&format!(
@@ -180,8 +195,13 @@ pub fn render(r: &ImportReport) -> String {
             let mark = if p.blocks_saving { "must be resolved" } else { "check" };
             out.push_str(&format!("- [{mark}] {}\n", p.message));
             if !p.examples.is_empty() {
-                let cells: Vec<String> = p.examples.iter().map(|c| format!("row {}: {:?}", c.row, c.value)).collect();
-                let more = if p.total > p.examples.len() { format!(" (first {} of {})", p.examples.len(), p.total) } else { String::new() };
+                let cells: Vec<String> =
+                    p.examples.iter().map(|c| format!("row {}: {:?}", c.row, c.value)).collect();
+                let more = if p.total > p.examples.len() {
+                    format!(" (first {} of {})", p.examples.len(), p.total)
+                } else {
+                    String::new()
+                };
                 out.push_str(&format!("  {}{more}\n", cells.join("; ")));
             }
             out.push_str(&format!("  to resolve: {}\n", p.remedy));
@@ -193,7 +213,11 @@ pub fn render(r: &ImportReport) -> String {
     for n in &r.notes {
         out.push_str(&format!("note: {n}\n"));
     }
-    out.push_str(if r.can_save { "\nthe table can be saved\n" } else { "\nthe table cannot be saved until the problems marked above are resolved\n" });
+    out.push_str(if r.can_save {
+        "\nthe table can be saved\n"
+    } else {
+        "\nthe table cannot be saved until the problems marked above are resolved\n"
+    });
     out
 }
 
@@ -202,7 +226,8 @@ pub fn run_import(args: &ImportArgs) -> Result<ExitCode, String> {
     let options = options(args)?;
     let staged = import_file(&args.file, &options).map_err(|e| e.to_string())?;
     if args.json {
-        let text = serde_json::to_string_pretty(staged.report()).map_err(|e| format!("could not write JSON: {e}"))?;
+        let text = serde_json::to_string_pretty(staged.report())
+            .map_err(|e| format!("could not write JSON: {e}"))?;
         println!("{text}");
     } else {
         print!("{}", render(staged.report()));
@@ -233,7 +258,14 @@ pub fn run_tables(args: &TablesArgs) -> Result<ExitCode, String> {
     }
     for t in &list {
         let versions: Vec<String> = t.versions.iter().map(u32::to_string).collect();
-        println!("{} ({}): versions {}; latest has {} rows and {} columns", t.dataset, t.name, versions.join(", "), t.rows, t.columns);
+        println!(
+            "{} ({}): versions {}; latest has {} rows and {} columns",
+            t.dataset,
+            t.name,
+            versions.join(", "),
+            t.rows,
+            t.columns
+        );
     }
     Ok(ExitCode::SUCCESS)
 }

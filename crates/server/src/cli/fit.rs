@@ -11,8 +11,7 @@ pub fn run(args: &ModelArgs) -> Result<ExitCode, String> {
     let table = args.table()?;
     let fitted = Fitted::new(&table, &spec).map_err(|e| e.to_string())?;
     let doc = fitted.fit_document().map_err(|e| e.to_string())?;
-    let text =
-        serde_json::to_string_pretty(&doc).map_err(|e| format!("could not write JSON: {e}"))?;
+    let text = serde_json::to_string_pretty(&doc).map_err(|e| format!("could not write JSON: {e}"))?;
     println!("{text}");
     Ok(ExitCode::SUCCESS)
 }

@@ -106,13 +106,7 @@ fn serve(args: ServeArgs) -> Result<ExitCode, String> {
         .enable_all()
         .build()
         .map_err(|e| format!("could not start the runtime: {e}"))?;
-    let config = crate::web::ServeConfig {
-        port: args.port,
-        data_dir: args.data_dir,
-        share: args.share,
-    };
-    runtime
-        .block_on(crate::web::serve(config))
-        .map_err(|e| e.to_string())?;
+    let config = crate::web::ServeConfig { port: args.port, data_dir: args.data_dir, share: args.share };
+    runtime.block_on(crate::web::serve(config)).map_err(|e| e.to_string())?;
     Ok(ExitCode::SUCCESS)
 }

@@ -58,28 +58,16 @@ impl ModelArgs {
         if let Some(path) = &self.spec {
             let text = std::fs::read_to_string(path)
                 .map_err(|e| format!("cannot read the spec file {}: {e}", path.display()))?;
-            let spec: ModelSpec = serde_json::from_str(&text).map_err(|e| {
-                format!(
-                    "the spec file {} is not a valid model spec: {e}",
-                    path.display()
-                )
-            })?;
+            let spec: ModelSpec = serde_json::from_str(&text)
+                .map_err(|e| format!("the spec file {} is not a valid model spec: {e}", path.display()))?;
             spec.validate().map_err(|e| e.to_string())?;
             return Ok(spec);
         }
-        let response = self
-            .response
-            .clone()
-            .ok_or("name the response with --response (or give --spec)")?;
+        let response = self.response.clone().ok_or("name the response with --response (or give --spec)")?;
         if self.predictors.is_empty() {
-            return Err(
-                "name at least one predictor with --predictors A,B,... (or give --spec)".into(),
-            );
+            return Err("name at least one predictor with --predictors A,B,... (or give --spec)".into());
         }
-        let mut spec = ModelSpec::new(
-            response,
-            self.predictors.iter().map(|p| p.trim().to_owned()),
-        );
+        let mut spec = ModelSpec::new(response, self.predictors.iter().map(|p| p.trim().to_owned()));
         spec.intercept = !self.no_intercept;
         spec.weights = self.weights.clone();
         spec.level = self.level;
@@ -95,15 +83,11 @@ impl ModelArgs {
         }
         for r in &self.references {
             let (col, level) = split_pair(r, "reference")?;
-            find_predictor(&mut spec.predictors, col, "reference")?.reference_level =
-                Some(level.to_owned());
+            find_predictor(&mut spec.predictors, col, "reference")?.reference_level = Some(level.to_owned());
         }
         for e in &self.exclusions {
             let (key, reason) = split_pair(e, "exclude")?;
-            spec.exclusions.push(ExclusionSpec {
-                key: key.to_owned(),
-                reason: reason.to_owned(),
-            });
+            spec.exclusions.push(ExclusionSpec { key: key.to_owned(), reason: reason.to_owned() });
         }
         spec.validate().map_err(|e| e.to_string())?;
         Ok(spec)
@@ -117,9 +101,7 @@ impl ModelArgs {
                 crate::demo::table_from_file(path, key).map_err(|e| e.to_string())
             }
             (None, true) => crate::demo::larkmoor_table().map_err(|e| e.to_string()),
-            _ => Err(
-                "give --data FILE --key COLUMN, or --demo for the bundled Larkmoor table".into(),
-            ),
+            _ => Err("give --data FILE --key COLUMN, or --demo for the bundled Larkmoor table".into()),
         }
     }
 }
@@ -129,7 +111,7 @@ fn find_predictor<'a>(
     col: &str,
     flag: &str,
 ) -> Result<&'a mut PredictorSpec, String> {
-    ps.iter_mut().find(|p| p.column == col).ok_or_else(|| {
-        format!("--{flag} names {col:?}, which is neither the response nor a predictor")
-    })
+    ps.iter_mut()
+        .find(|p| p.column == col)
+        .ok_or_else(|| format!("--{flag} names {col:?}, which is neither the response nor a predictor"))
 }

@@ -5,8 +5,8 @@ use std::process::ExitCode;
 
 use wardcast_contract::selection::{SelectionDocument, SelectionParts};
 use wardcast_engine::selection::{
-    Candidates, CvOptions, DropOneOptions, GroupColumn, SearchOptions, best_subsets,
-    cross_validate, drop_one, partial_f_test, recommend,
+    Candidates, CvOptions, DropOneOptions, GroupColumn, SearchOptions, best_subsets, cross_validate,
+    drop_one, partial_f_test, recommend,
 };
 use wardcast_engine::{ColumnData, Design, QrOptions, Table};
 
@@ -51,19 +51,10 @@ pub fn run(args: &SelectArgs) -> Result<ExitCode, String> {
     let engine_spec = spec.to_engine().map_err(|e| e.to_string())?;
     let design = Design::build(&table, &engine_spec).map_err(|e| e.to_string())?;
     let cands = Candidates::from_design(&design).map_err(|e| e.to_string())?;
-    let forced = args
-        .force
-        .iter()
-        .map(|name| term_index(&spec, name))
-        .collect::<Result<Vec<_>, _>>()?;
+    let forced = args.force.iter().map(|name| term_index(&spec, name)).collect::<Result<Vec<_>, _>>()?;
     let search = best_subsets(
         &cands,
-        &SearchOptions {
-            top: args.top,
-            max_size: args.max_size,
-            forced,
-            ..SearchOptions::default()
-        },
+        &SearchOptions { top: args.top, max_size: args.max_size, forced, ..SearchOptions::default() },
     )
     .map_err(|e| e.to_string())?;
 
@@ -99,15 +90,7 @@ pub fn run(args: &SelectArgs) -> Result<ExitCode, String> {
         .filter(|m| m.len() < all.len())
         .filter_map(|m| partial_f_test(&cands, m, &all, &qr).ok())
         .collect();
-    let drop = drop_one(
-        &cands,
-        &all,
-        &DropOneOptions {
-            qr,
-            cv: Some(cv_opts.clone()),
-        },
-    )
-    .ok();
+    let drop = drop_one(&cands, &all, &DropOneOptions { qr, cv: Some(cv_opts.clone()) }).ok();
     let doc = SelectionDocument::new(
         &spec,
         &search,
@@ -119,18 +102,14 @@ pub fn run(args: &SelectArgs) -> Result<ExitCode, String> {
             drop_one: drop.as_ref(),
         },
     );
-    let text =
-        serde_json::to_string_pretty(&doc).map_err(|e| format!("could not write JSON: {e}"))?;
+    let text = serde_json::to_string_pretty(&doc).map_err(|e| format!("could not write JSON: {e}"))?;
     println!("{text}");
     Ok(ExitCode::SUCCESS)
 }
 
 /// The number of distinct values.
 fn distinct(values: &[String]) -> usize {
-    values
-        .iter()
-        .collect::<std::collections::HashSet<_>>()
-        .len()
+    values.iter().collect::<std::collections::HashSet<_>>().len()
 }
 
 /// The candidate index of a predictor named by its column.
@@ -143,19 +122,13 @@ fn term_index(spec: &wardcast_contract::spec::ModelSpec, name: &str) -> Result<u
 
 /// The grouping column's values for the rows the design kept.
 fn group_column(table: &Table, design: &Design, col: &str) -> Result<GroupColumn, String> {
-    let column = table
-        .column(col)
-        .ok_or_else(|| format!("--group names {col:?}, which is not a column"))?;
+    let column = table.column(col).ok_or_else(|| format!("--group names {col:?}, which is not a column"))?;
     let text: Vec<Option<String>> = match &column.data {
         ColumnData::Text(v) => v.clone(),
         ColumnData::Numeric(v) => v.iter().map(|x| x.map(|x| x.to_string())).collect(),
     };
-    let index: std::collections::HashMap<&str, usize> = table
-        .keys()
-        .iter()
-        .enumerate()
-        .map(|(i, k)| (k.as_str(), i))
-        .collect();
+    let index: std::collections::HashMap<&str, usize> =
+        table.keys().iter().enumerate().map(|(i, k)| (k.as_str(), i)).collect();
     let values = design
         .keys()
         .iter()
@@ -166,8 +139,5 @@ fn group_column(table: &Table, design: &Design, col: &str) -> Result<GroupColumn
                 .ok_or_else(|| format!("the group column {col:?} is empty for {k:?}"))
         })
         .collect::<Result<Vec<_>, _>>()?;
-    Ok(GroupColumn {
-        label: col.to_owned(),
-        values,
-    })
+    Ok(GroupColumn { label: col.to_owned(), values })
 }

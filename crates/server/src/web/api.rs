@@ -54,18 +54,11 @@ pub async fn list(State(ctx): State<Ctx>) -> Result<Json<AnalysisList>, ApiError
             fit: format!("/api/analyses/{}/fit", a.id()),
         })
         .collect();
-    Ok(Json(AnalysisList {
-        schema_version: SCHEMA_VERSION,
-        kind: "analysis_list",
-        analyses,
-    }))
+    Ok(Json(AnalysisList { schema_version: SCHEMA_VERSION, kind: "analysis_list", analyses }))
 }
 
 /// `GET /api/analyses/{id}/fit`: the fit document, exactly as `wardcast fit` prints it.
-pub async fn fit(
-    State(ctx): State<Ctx>,
-    Path(id): Path<String>,
-) -> Result<Json<FitDocument>, ApiError> {
+pub async fn fit(State(ctx): State<Ctx>, Path(id): Path<String>) -> Result<Json<FitDocument>, ApiError> {
     let analysis = ctx.analysis(&id)?;
     Ok(Json(analysis.fit().clone()))
 }

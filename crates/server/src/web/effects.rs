@@ -33,31 +33,15 @@ pub struct Figure {
 
 impl Figure {
     fn new(x: f64) -> Self {
-        Figure {
-            text: fmt_num(x),
-            raw: if x.is_finite() {
-                format!("{x:?}")
-            } else {
-                String::new()
-            },
-        }
+        Figure { text: fmt_num(x), raw: if x.is_finite() { format!("{x:?}") } else { String::new() } }
     }
 
     fn from_number(n: Number) -> Self {
         match n {
             Number::Finite(x) => Figure::new(x),
-            Number::PosInfinity => Figure {
-                text: "infinite".into(),
-                raw: "Infinity".into(),
-            },
-            Number::NegInfinity => Figure {
-                text: "minus infinite".into(),
-                raw: "-Infinity".into(),
-            },
-            Number::Undefined => Figure {
-                text: "undefined".into(),
-                raw: String::new(),
-            },
+            Number::PosInfinity => Figure { text: "infinite".into(), raw: "Infinity".into() },
+            Number::NegInfinity => Figure { text: "minus infinite".into(), raw: "-Infinity".into() },
+            Number::Undefined => Figure { text: "undefined".into(), raw: String::new() },
         }
     }
 }
@@ -191,24 +175,13 @@ impl EffectsPage {
             level: spec.level,
         };
 
-        let has_intercept = spec.intercept
-            && fit
-                .coefficients
-                .first()
-                .is_some_and(|c| c.term == "(intercept)");
-        let slopes = if has_intercept {
-            &fit.coefficients[1..]
-        } else {
-            &fit.coefficients[..]
-        };
+        let has_intercept =
+            spec.intercept && fit.coefficients.first().is_some_and(|c| c.term == "(intercept)");
+        let slopes = if has_intercept { &fit.coefficients[1..] } else { &fit.coefficients[..] };
         let terms: Vec<String> = slopes.iter().map(|c| c.term.clone()).collect();
         let kinds = classify_terms(spec, &terms);
         let row = |c: &CoefficientDoc, kind: &TermKind| {
-            let estimate = Estimate {
-                value: c.estimate,
-                low: c.interval.low,
-                high: c.interval.high,
-            };
+            let estimate = Estimate { value: c.estimate, low: c.interval.low, high: c.interval.high };
             EffectRow {
                 term: c.term.clone(),
                 sentence: comparison_sentence(kind, estimate, &wording),
@@ -247,13 +220,7 @@ impl EffectsPage {
             .as_deref()
             .map(str::trim)
             .filter(|u| !u.is_empty())
-            .map(|u| {
-                if u.starts_with('%') {
-                    " percentage points".to_owned()
-                } else {
-                    format!(" {u}")
-                }
-            });
+            .map(|u| if u.starts_with('%') { " percentage points".to_owned() } else { format!(" {u}") });
         let mut facts = vec![Fact {
             heading: format!("{} in the model", capitalise(areas)),
             value: format!("{n} of {total}"),
@@ -263,9 +230,7 @@ impl EffectsPage {
                 1 => {
                     format!("One of the {total} was left out; it is listed below with the reason.")
                 }
-                k => format!(
-                    "{k} of the {total} were left out; each is listed below with its reason."
-                ),
+                k => format!("{k} of the {total} were left out; each is listed below with its reason."),
             },
         }];
         let about = if fit.sums_of_squares.basis == "about_zero" {
@@ -290,10 +255,7 @@ impl EffectsPage {
         facts.push(Fact {
             heading: "Typical distance from the model".into(),
             value: fmt_num(fit.residual_sd),
-            unit: unit
-                .clone()
-                .map(|u| u.trim().to_owned())
-                .unwrap_or_default(),
+            unit: unit.clone().map(|u| u.trim().to_owned()).unwrap_or_default(),
             explanation: format!(
                 "Observed values of {} typically lie about {}{} from the model's values \
                  (the residual standard deviation, on {} residual degrees of freedom).",
@@ -356,10 +318,7 @@ impl EffectsPage {
             dropped: fit
                 .rows_dropped
                 .iter()
-                .map(|d| DroppedRow {
-                    key: d.key.clone(),
-                    reason: d.reason.clone(),
-                })
+                .map(|d| DroppedRow { key: d.key.clone(), reason: d.reason.clone() })
                 .collect(),
             anova: test_rows(&fit.sequential_anova),
             partial: test_rows(&fit.partial_f),
@@ -393,11 +352,7 @@ fn effect_chart(
         || matches!(w.response_transform, Some(TransformSpec::Power { lambda }) if lambda == 0.0);
     // Under a logged response a difference d is a ratio e^d, shown as a percentage difference.
     let shown = |d: f64| {
-        if log_response {
-            (d.exp() - 1.0) * 100.0
-        } else {
-            d
-        }
+        if log_response { (d.exp() - 1.0) * 100.0 } else { d }
     };
     let rows = slopes
         .iter()
@@ -493,8 +448,7 @@ fn overall_fact(fit: &FitDocument, response: &str) -> Fact {
             heading: "All indicators together".into(),
             value: "no test".into(),
             unit: String::new(),
-            explanation: "The model has no indicators to test, so there is no overall F test."
-                .into(),
+            explanation: "The model has no indicators to test, so there is no overall F test.".into(),
         },
     }
 }

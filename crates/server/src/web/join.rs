@@ -39,8 +39,7 @@ pub(crate) struct JoinQuery {
 
 fn not_sharing() -> ServerError {
     ServerError::NotFound(
-        "This wardcast is not shared, so there is nothing to join. Open the start page instead."
-            .into(),
+        "This wardcast is not shared, so there is nothing to join. Open the start page instead.".into(),
     )
 }
 
@@ -52,9 +51,7 @@ fn bad_link() -> ServerError {
 }
 
 fn no_store(mut response: Response) -> Response {
-    response
-        .headers_mut()
-        .insert(header::CACHE_CONTROL, HeaderValue::from_static("no-store"));
+    response.headers_mut().insert(header::CACHE_CONTROL, HeaderValue::from_static("no-store"));
     response
 }
 
@@ -66,22 +63,15 @@ pub async fn show(
     if !ctx.security.config().is_shared() {
         return Err(not_sharing());
     }
-    let token = query
-        .ok()
-        .and_then(|Query(q)| q.t)
-        .filter(|t| !t.is_empty())
-        .ok_or_else(|| {
-            ServerError::BadRequest(
-                "The joining link is incomplete: it has no token. Copy the whole link.".into(),
-            )
-        })?;
+    let token = query.ok().and_then(|Query(q)| q.t).filter(|t| !t.is_empty()).ok_or_else(|| {
+        ServerError::BadRequest(
+            "The joining link is incomplete: it has no token. Copy the whole link.".into(),
+        )
+    })?;
     if !ctx.security.token_matches(&token) {
         return Err(bad_link());
     }
-    let page = JoinPage {
-        layout: Layout::plain("Join a shared session", true),
-        token,
-    };
+    let page = JoinPage { layout: Layout::plain("Join a shared session", true), token };
     Ok(no_store(render(&page)))
 }
 
@@ -95,15 +85,9 @@ pub async fn exchange(State(ctx): State<Ctx>, request: Request<Body>) -> Result<
         .headers()
         .get(header::CONTENT_TYPE)
         .and_then(|v| v.to_str().ok())
-        .is_some_and(|v| {
-            v.trim()
-                .to_ascii_lowercase()
-                .starts_with("application/x-www-form-urlencoded")
-        });
+        .is_some_and(|v| v.trim().to_ascii_lowercase().starts_with("application/x-www-form-urlencoded"));
     if !is_form {
-        return Err(ServerError::BadRequest(
-            "The joining form must be sent as a web form.".into(),
-        ));
+        return Err(ServerError::BadRequest("The joining form must be sent as a web form.".into()));
     }
     let body = super::read_body(request.into_body(), JOIN_FORM_LIMIT).await?;
     let token = form_urlencoded_field(&body, "t")

@@ -65,9 +65,7 @@ impl Ctx {
             ));
         }
         self.app.get(id)?.ok_or_else(|| {
-            ServerError::NotFound(format!(
-                "There is no analysis called {id:?} in this session."
-            ))
+            ServerError::NotFound(format!("There is no analysis called {id:?} in this session."))
         })
     }
 }
@@ -86,10 +84,7 @@ pub fn router(state: AppState, security: SecurityConfig) -> Router {
 pub fn router_with_assets(state: AppState, security: SecurityConfig, assets: PathBuf) -> Router {
     let limits = security.limits();
     let security = Security::new(security);
-    let ctx = Ctx {
-        app: state,
-        security: security.clone(),
-    };
+    let ctx = Ctx { app: state, security: security.clone() };
     let routes = Router::new()
         .route("/", get(start::page))
         .route("/analyses/{id}", get(effects::page))
@@ -100,10 +95,7 @@ pub fn router_with_assets(state: AppState, security: SecurityConfig, assets: Pat
         .fallback(not_found)
         .with_state(ctx);
     let header = |name: &'static str, value: &'static str| {
-        SetResponseHeaderLayer::overriding(
-            HeaderName::from_static(name),
-            HeaderValue::from_static(value),
-        )
+        SetResponseHeaderLayer::overriding(HeaderName::from_static(name), HeaderValue::from_static(value))
     };
     routes.layer(
         ServiceBuilder::new()
@@ -112,14 +104,8 @@ pub fn router_with_assets(state: AppState, security: SecurityConfig, assets: Pat
             .layer(header("referrer-policy", "no-referrer"))
             .layer(header("x-frame-options", "DENY"))
             .layer(header("cross-origin-opener-policy", "same-origin"))
-            .layer(TimeoutLayer::with_status_code(
-                StatusCode::REQUEST_TIMEOUT,
-                limits.request,
-            ))
-            .layer(axum::middleware::from_fn_with_state(
-                security,
-                security::guard,
-            ))
+            .layer(TimeoutLayer::with_status_code(StatusCode::REQUEST_TIMEOUT, limits.request))
+            .layer(axum::middleware::from_fn_with_state(security, security::guard))
             .layer(RequestBodyLimitLayer::new(limits.body_bytes))
             .layer(RequestBodyTimeoutLayer::new(limits.body_idle)),
     )
@@ -190,14 +176,7 @@ pub async fn serve(config: ServeConfig) -> Result<()> {
     let state = tokio::task::spawn_blocking(demo::demo_state)
         .await
         .map_err(|e| ServerError::Internal(format!("loading the demo stopped: {e}")))??;
-    serve_with(
-        config,
-        ServeOptions {
-            state,
-            ..ServeOptions::default()
-        },
-    )
-    .await
+    serve_with(config, ServeOptions { state, ..ServeOptions::default() }).await
 }
 
 /// Binds the socket and serves until Ctrl-C. Local mode binds 127.0.0.1; `share` binds the LAN
@@ -214,10 +193,7 @@ pub async fn serve_with(config: ServeConfig, options: ServeOptions) -> Result<()
     let wanted = SocketAddr::new(ip, config.port);
     let listener = tokio::net::TcpListener::bind(wanted)
         .await
-        .map_err(|source| ServerError::Bind {
-            address: wanted.to_string(),
-            source,
-        })?;
+        .map_err(|source| ServerError::Bind { address: wanted.to_string(), source })?;
     let port = listener.local_addr().map_err(ServerError::Serve)?.port();
     let security = if config.share {
         SecurityConfig::shared(port, ip, Token::generate()?)
@@ -227,22 +203,14 @@ pub async fn serve_with(config: ServeConfig, options: ServeOptions) -> Result<()
     .with_limits(options.limits);
 
     if let Some(link) = security.share_link() {
-        println!(
-            "wardcast is shared on the local network. Open this link, or send it to colleagues:"
-        );
+        println!("wardcast is shared on the local network. Open this link, or send it to colleagues:");
         println!();
         println!("    {link}");
         println!();
-        println!(
-            "Warning: plain HTTP on a local network can be read by anyone else on that network."
-        );
-        println!(
-            "Share only on a network you trust, and stop wardcast (Ctrl-C) when the meeting ends."
-        );
+        println!("Warning: plain HTTP on a local network can be read by anyone else on that network.");
+        println!("Share only on a network you trust, and stop wardcast (Ctrl-C) when the meeting ends.");
     } else {
-        println!(
-            "wardcast is running at http://127.0.0.1:{port}/ (only this computer can reach it)."
-        );
+        println!("wardcast is running at http://127.0.0.1:{port}/ (only this computer can reach it).");
     }
     println!("Press Ctrl-C to stop.");
 
@@ -261,8 +229,6 @@ pub async fn serve_with(config: ServeConfig, options: ServeOptions) -> Result<()
 /// A 303 redirect, for form posts that lead back to a page.
 pub(crate) fn see_other(location: &'static str) -> Response {
     let mut response = StatusCode::SEE_OTHER.into_response();
-    response
-        .headers_mut()
-        .insert(header::LOCATION, HeaderValue::from_static(location));
+    response.headers_mut().insert(header::LOCATION, HeaderValue::from_static(location));
     response
 }

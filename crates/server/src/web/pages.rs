@@ -14,37 +14,12 @@ use crate::error::ServerError;
 /// analysis' main page), a one-line hint, and whether the section exists yet.
 const SECTIONS: [(&str, &str, &str, bool); 8] = [
     ("Data", "data", "Upload, check and join tables", false),
-    (
-        "Survey",
-        "survey",
-        "Each column's spread, and how the columns move together",
-        false,
-    ),
+    ("Survey", "survey", "Each column's spread, and how the columns move together", false),
     ("Effects", "", "What the model says, with intervals", true),
-    (
-        "Soundness",
-        "soundness",
-        "Whether the model's assumptions hold",
-        false,
-    ),
-    (
-        "Contenders",
-        "contenders",
-        "Candidate models side by side",
-        false,
-    ),
-    (
-        "Areas",
-        "areas",
-        "Observed against expected, area by area",
-        false,
-    ),
-    (
-        "What if",
-        "what-if",
-        "Predicted outcomes for changed indicators",
-        false,
-    ),
+    ("Soundness", "soundness", "Whether the model's assumptions hold", false),
+    ("Contenders", "contenders", "Candidate models side by side", false),
+    ("Areas", "areas", "Observed against expected, area by area", false),
+    ("What if", "what-if", "Predicted outcomes for changed indicators", false),
     ("Brief", "brief", "The exportable summary", false),
 ];
 
@@ -88,39 +63,18 @@ pub struct Layout {
 impl Layout {
     /// The frame for a page outside any analysis (no cautions, no section navigation).
     pub fn plain(title: impl Into<String>, shared: bool) -> Self {
-        Layout {
-            title: title.into(),
-            shared,
-            analysis_name: None,
-            nav: Vec::new(),
-            cautions: Vec::new(),
-        }
+        Layout { title: title.into(), shared, analysis_name: None, nav: Vec::new(), cautions: Vec::new() }
     }
 
     /// The frame for a page of an analysis: section navigation and the cautions panel.
-    pub fn analysis(
-        title: impl Into<String>,
-        shared: bool,
-        id: &str,
-        name: &str,
-        section: Section,
-    ) -> Self {
+    pub fn analysis(title: impl Into<String>, shared: bool, id: &str, name: &str, section: Section) -> Self {
         let nav = SECTIONS
             .iter()
             .map(|&(label, path, hint, available)| {
                 let href = available.then(|| {
-                    if path.is_empty() {
-                        format!("/analyses/{id}")
-                    } else {
-                        format!("/analyses/{id}/{path}")
-                    }
+                    if path.is_empty() { format!("/analyses/{id}") } else { format!("/analyses/{id}/{path}") }
                 });
-                NavItem {
-                    label,
-                    href,
-                    hint,
-                    current: section == Section::Effects && label == "Effects",
-                }
+                NavItem { label, href, hint, current: section == Section::Effects && label == "Effects" }
             })
             .collect();
         Layout {
@@ -138,10 +92,9 @@ pub fn render<T: Template>(page: &T) -> Response {
     match page.render() {
         Ok(html) => {
             let mut response = html.into_response();
-            response.headers_mut().insert(
-                header::CONTENT_TYPE,
-                HeaderValue::from_static("text/html; charset=utf-8"),
-            );
+            response
+                .headers_mut()
+                .insert(header::CONTENT_TYPE, HeaderValue::from_static("text/html; charset=utf-8"));
             response
         }
         Err(e) => ServerError::Render(e).into_response(),

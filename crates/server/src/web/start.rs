@@ -54,8 +54,5 @@ pub async fn page(State(ctx): State<Ctx>) -> Result<Response> {
             }
         })
         .collect();
-    Ok(render(&StartPage {
-        layout: Layout::plain("Start", ctx.shared()),
-        cards,
-    }))
+    Ok(render(&StartPage { layout: Layout::plain("Start", ctx.shared()), cards }))
 }

@@ -29,11 +29,7 @@ pub struct ColumnInfo {
 impl ColumnInfo {
     /// A label and unit with a comparison step of 1.
     pub fn new(label: impl Into<String>, unit: Option<&str>) -> Self {
-        ColumnInfo {
-            label: label.into(),
-            unit: unit.map(str::to_owned),
-            step: 1.0,
-        }
+        ColumnInfo { label: label.into(), unit: unit.map(str::to_owned), step: 1.0 }
     }
 
     /// Sets the comparison step (ignored unless finite and positive).
@@ -54,20 +50,14 @@ pub struct Glossary {
 
 impl Default for Glossary {
     fn default() -> Self {
-        Glossary {
-            areas: "areas".into(),
-            columns: BTreeMap::new(),
-        }
+        Glossary { areas: "areas".into(), columns: BTreeMap::new() }
     }
 }
 
 impl Glossary {
     /// An empty glossary whose areas are called `areas_plural` (e.g. "districts").
     pub fn new(areas_plural: impl Into<String>) -> Self {
-        Glossary {
-            areas: areas_plural.into(),
-            columns: BTreeMap::new(),
-        }
+        Glossary { areas: areas_plural.into(), columns: BTreeMap::new() }
     }
 
     /// Adds or replaces a column's description.
@@ -83,9 +73,7 @@ impl Glossary {
         for m in metas {
             let label = m.label.clone().unwrap_or_else(|| m.column.clone());
             let unit = m.unit.as_deref().map(str::trim).filter(|u| !u.is_empty());
-            glossary
-                .columns
-                .insert(m.column.clone(), ColumnInfo::new(label, unit));
+            glossary.columns.insert(m.column.clone(), ColumnInfo::new(label, unit));
         }
         glossary
     }
@@ -103,12 +91,7 @@ impl Glossary {
             if info.step != 1.0 {
                 continue;
             }
-            let xs: Vec<f64> = values
-                .iter()
-                .flatten()
-                .copied()
-                .filter(|x| x.is_finite())
-                .collect();
+            let xs: Vec<f64> = values.iter().flatten().copied().filter(|x| x.is_finite()).collect();
             if let Some(step) = round_step(&xs) {
                 info.step = step;
                 self.columns.insert(column.name.clone(), info);
@@ -124,10 +107,7 @@ impl Glossary {
 
     /// A column's description; unknown columns are described by their name.
     pub fn column(&self, name: &str) -> ColumnInfo {
-        self.columns
-            .get(name)
-            .cloned()
-            .unwrap_or_else(|| ColumnInfo::new(name, None))
+        self.columns.get(name).cloned().unwrap_or_else(|| ColumnInfo::new(name, None))
     }
 }
 
@@ -170,12 +150,7 @@ impl Analysis {
                 "{id:?} cannot name an analysis: use 1 to 64 lowercase letters, digits and hyphens"
             )));
         }
-        Ok(Analysis {
-            id,
-            name: name.into(),
-            glossary,
-            fit,
-        })
+        Ok(Analysis { id, name: name.into(), glossary, fit })
     }
 
     /// Builds an analysis from an engine fit and the spec it came from, through the same fit
@@ -216,9 +191,7 @@ pub fn valid_id(id: &str) -> bool {
     !id.is_empty()
         && id.len() <= 64
         && !id.starts_with('-')
-        && id
-            .bytes()
-            .all(|b| b.is_ascii_lowercase() || b.is_ascii_digit() || b == b'-')
+        && id.bytes().all(|b| b.is_ascii_lowercase() || b.is_ascii_digit() || b == b'-')
 }
 
 /// The session's analyses, shared by all handlers. Cheap to clone.

@@ -20,11 +20,7 @@ pub fn fmt_sig(x: f64, sig: usize) -> String {
         return "undefined".into();
     }
     if x.is_infinite() {
-        return if x > 0.0 {
-            "infinite".into()
-        } else {
-            "minus infinite".into()
-        };
+        return if x > 0.0 { "infinite".into() } else { "minus infinite".into() };
     }
     if x == 0.0 {
         return "0".into();
@@ -135,10 +131,7 @@ pub fn classify_terms(spec: &ModelSpec, terms: &[String]) -> Vec<TermKind> {
             break;
         }
         let prefix = format!("{}=", p.column);
-        let levels = terms[i..]
-            .iter()
-            .take_while(|t| t.starts_with(&prefix))
-            .count();
+        let levels = terms[i..].iter().take_while(|t| t.starts_with(&prefix)).count();
         if levels > 0 {
             for term in &terms[i..i + levels] {
                 kinds.push(TermKind::Level {
@@ -156,10 +149,7 @@ pub fn classify_terms(spec: &ModelSpec, terms: &[String]) -> Vec<TermKind> {
             Some(_) => *term != p.column && term.contains(p.column.as_str()),
         };
         kinds.push(if matches {
-            TermKind::Numeric {
-                column: p.column.clone(),
-                transform: p.transform,
-            }
+            TermKind::Numeric { column: p.column.clone(), transform: p.transform }
         } else {
             TermKind::Other(term.clone())
         });
@@ -262,11 +252,7 @@ fn singular_unit(unit: &str) -> String {
         Some(stem) if !stem.is_empty() && !stem.ends_with('s') => stem,
         _ => first,
     };
-    if rest.is_empty() {
-        first.to_owned()
-    } else {
-        format!("{first} {rest}")
-    }
+    if rest.is_empty() { first.to_owned() } else { format!("{first} {rest}") }
 }
 
 /// The comparison step in words: "one percentage point", "$1,000", "one outlet per 1,000
@@ -293,10 +279,7 @@ struct ResponseSide {
 
 impl ResponseSide {
     fn new(info: &ColumnInfo) -> Self {
-        ResponseSide {
-            unit: UnitKind::of(info),
-            label: in_sentence(&info.label),
-        }
+        ResponseSide { unit: UnitKind::of(info), label: in_sentence(&info.label) }
     }
 
     fn words(&self) -> (&'static str, &'static str) {
@@ -309,11 +292,7 @@ impl ResponseSide {
     /// The size of a difference without its direction: "3.2", or "$40" for money.
     fn bare(&self, d: f64) -> String {
         let size = fmt_prose(d.abs());
-        if self.unit == UnitKind::Dollars {
-            format!("${size}")
-        } else {
-            size
-        }
+        if self.unit == UnitKind::Dollars { format!("${size}") } else { size }
     }
 
     /// "3.2 more" / "2 percentage points higher" / "$40 lower" for one end or the estimate.
@@ -357,10 +336,7 @@ impl ResponseSide {
 /// step for a plain predictor, ln 2 (a doubling) for a logged one, 1 otherwise.
 pub fn comparison_scale(kind: &TermKind, glossary: &Glossary) -> f64 {
     match kind {
-        TermKind::Numeric {
-            column,
-            transform: None,
-        } => glossary.column(column).step,
+        TermKind::Numeric { column, transform: None } => glossary.column(column).step,
         TermKind::Numeric { transform, .. } if is_log(*transform) => std::f64::consts::LN_2,
         _ => 1.0,
     }
@@ -370,10 +346,7 @@ pub fn comparison_scale(kind: &TermKind, glossary: &Glossary) -> f64 {
 /// "Median household income (+$1,000)", "Vacant dwellings (doubled)", "District type: centre".
 pub fn comparison_label(kind: &TermKind, glossary: &Glossary) -> String {
     match kind {
-        TermKind::Numeric {
-            column,
-            transform: None,
-        } => {
+        TermKind::Numeric { column, transform: None } => {
             let info = glossary.column(column);
             let step = fmt_plain(info.step);
             let plural = if info.step == 1.0 { "" } else { "s" };
@@ -389,10 +362,7 @@ pub fn comparison_label(kind: &TermKind, glossary: &Glossary) -> String {
         }
         TermKind::Numeric { column, transform } => {
             let scale = transform.map(transform_scale).unwrap_or_default();
-            format!(
-                "{} ({scale}, +1)",
-                capitalise(&glossary.column(column).label)
-            )
+            format!("{} ({scale}, +1)", capitalise(&glossary.column(column).label))
         }
         TermKind::Level { column, level, .. } => {
             format!("{}: {level}", capitalise(&glossary.column(column).label))
@@ -408,23 +378,13 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
     let areas = capitalise(w.glossary.areas());
     let equal = "with the other indicators equal";
     let subject = match kind {
-        TermKind::Numeric {
-            column,
-            transform: None,
-        } => {
+        TermKind::Numeric { column, transform: None } => {
             let info = w.glossary.column(column);
-            format!(
-                "{areas} {} higher in {}, {equal},",
-                step_phrase(&info),
-                in_sentence(&info.label)
-            )
+            format!("{areas} {} higher in {}, {equal},", step_phrase(&info), in_sentence(&info.label))
         }
         TermKind::Numeric { column, transform } if is_log(*transform) => {
             let info = w.glossary.column(column);
-            format!(
-                "{areas} with twice the level of {}, {equal},",
-                in_sentence(&info.label)
-            )
+            format!("{areas} with twice the level of {}, {equal},", in_sentence(&info.label))
         }
         TermKind::Numeric { column, transform } => {
             let label = in_sentence(&w.glossary.column(column).label);
@@ -434,11 +394,7 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
                  {label} that is depends on where it starts), {equal},"
             )
         }
-        TermKind::Level {
-            column,
-            level,
-            reference,
-        } => {
+        TermKind::Level { column, level, reference } => {
             let label = in_sentence(&w.glossary.column(column).label);
             let against = match reference {
                 Some(r) => format!("those in the \u{201c}{r}\u{201d} group"),
@@ -457,11 +413,7 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
     let response = w.glossary.column(w.response);
     let level = fmt_level(w.level);
     let crosses = lo <= 0.0 && hi >= 0.0 && lo < hi;
-    let caveat = if crosses {
-        " The data are also consistent with no difference at all."
-    } else {
-        ""
-    };
+    let caveat = if crosses { " The data are also consistent with no difference at all." } else { "" };
     match w.response_transform {
         None => {
             let side = ResponseSide::new(&response);
@@ -485,11 +437,7 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
             };
             let interval = if lo > 0.0 || hi < 0.0 {
                 let (a, b) = if lo > 0.0 { (lo, hi) } else { (hi, lo) };
-                format!(
-                    "{}% to {}",
-                    fmt_prose(((a.exp() - 1.0) * 100.0).abs()),
-                    pct(b)
-                )
+                format!("{}% to {}", fmt_prose(((a.exp() - 1.0) * 100.0).abs()), pct(b))
             } else {
                 format!("from {} to {}", pct(lo), pct(hi))
             };

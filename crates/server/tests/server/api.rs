@@ -8,11 +8,7 @@ use crate::{get, header_of, local_app, sample_fit, send, text};
 async fn json(path: &str, expected: StatusCode) -> serde_json::Value {
     let response = send(&local_app(), get(path)).await;
     assert_eq!(response.status(), expected, "GET {path}");
-    assert_eq!(
-        header_of(&response, "content-type"),
-        "application/json",
-        "GET {path}"
-    );
+    assert_eq!(header_of(&response, "content-type"), "application/json", "GET {path}");
     serde_json::from_str(&text(response).await).expect("valid JSON")
 }
 
@@ -40,23 +36,12 @@ async fn the_fit_document_is_served_unchanged() {
 #[tokio::test]
 async fn api_errors_are_json() {
     let cases = [
-        (
-            "/api/analyses/missing/fit",
-            StatusCode::NOT_FOUND,
-            "no analysis called",
-        ),
-        (
-            "/api/analyses/BAD/fit",
-            StatusCode::BAD_REQUEST,
-            "lowercase letters",
-        ),
+        ("/api/analyses/missing/fit", StatusCode::NOT_FOUND, "no analysis called"),
+        ("/api/analyses/BAD/fit", StatusCode::BAD_REQUEST, "lowercase letters"),
     ];
     for (path, status, phrase) in cases {
         let body = json(path, status).await;
         assert_eq!(body["status"], status.as_u16());
-        assert!(
-            body["error"].as_str().expect("message").contains(phrase),
-            "{path}: {body}"
-        );
+        assert!(body["error"].as_str().expect("message").contains(phrase), "{path}: {body}");
     }
 }

@@ -6,20 +6,14 @@ use wardcast::security::SecurityConfig;
 use wardcast::web::{Analysis, AppState, ColumnInfo, Glossary, router};
 use wardcast_contract::cautions::standing_cautions;
 
-use crate::{
-    NASTY, NASTY_ESCAPED, PORT, get, header_of, local_app, sample_fit, sample_glossary, send, text,
-};
+use crate::{NASTY, NASTY_ESCAPED, PORT, get, header_of, local_app, sample_fit, sample_glossary, send, text};
 
 /// Fetches a page and checks its status; returns the body.
 async fn page(app: &axum::Router, path: &str, expected: StatusCode) -> String {
     let response = send(app, get(path)).await;
     assert_eq!(response.status(), expected, "GET {path}");
     if expected == StatusCode::OK {
-        assert_eq!(
-            header_of(&response, "content-type"),
-            "text/html; charset=utf-8",
-            "GET {path}"
-        );
+        assert_eq!(header_of(&response, "content-type"), "text/html; charset=utf-8", "GET {path}");
     }
     text(response).await
 }
@@ -30,39 +24,16 @@ async fn each_page_answers_with_its_status() {
     let cases = [
         ("/", StatusCode::OK, "Larkmoor assaults"),
         ("/analyses/demo", StatusCode::OK, "What the model says"),
-        (
-            "/analyses/nothing-here",
-            StatusCode::NOT_FOUND,
-            "no analysis called",
-        ),
-        (
-            "/analyses/Not_An_Id",
-            StatusCode::BAD_REQUEST,
-            "lowercase letters, digits and hyphens",
-        ),
-        (
-            "/analyses/-demo",
-            StatusCode::BAD_REQUEST,
-            "lowercase letters, digits and hyphens",
-        ),
-        (
-            "/analyses/demo/",
-            StatusCode::NOT_FOUND,
-            "no page at this address",
-        ),
-        (
-            "/analyses",
-            StatusCode::NOT_FOUND,
-            "no page at this address",
-        ),
+        ("/analyses/nothing-here", StatusCode::NOT_FOUND, "no analysis called"),
+        ("/analyses/Not_An_Id", StatusCode::BAD_REQUEST, "lowercase letters, digits and hyphens"),
+        ("/analyses/-demo", StatusCode::BAD_REQUEST, "lowercase letters, digits and hyphens"),
+        ("/analyses/demo/", StatusCode::NOT_FOUND, "no page at this address"),
+        ("/analyses", StatusCode::NOT_FOUND, "no page at this address"),
         ("/nowhere", StatusCode::NOT_FOUND, "no page at this address"),
     ];
     for (path, status, phrase) in cases {
         let html = page(&app, path, status).await;
-        assert!(
-            html.contains(phrase),
-            "GET {path} should mention {phrase:?}"
-        );
+        assert!(html.contains(phrase), "GET {path} should mention {phrase:?}");
         assert!(
             html.contains("<link rel=\"stylesheet\" href=\"/assets/style.css\">"),
             "GET {path} is styled"
@@ -94,10 +65,7 @@ async fn pages_have_no_inline_script_or_style() {
         assert!(!html.contains("<script"), "{path} has a script element");
         assert!(!html.contains(" style="), "{path} has a style attribute");
         assert!(!html.contains("<style"), "{path} has a style element");
-        assert!(
-            !has_event_handler(&html),
-            "{path} has an inline event handler"
-        );
+        assert!(!has_event_handler(&html), "{path} has an inline event handler");
     }
 }
 
@@ -131,9 +99,7 @@ async fn the_effects_page_leads_with_comparisons_and_keeps_the_cautions() {
     assert!(html.contains("Read before deciding"));
     let mut last = 0;
     for caution in standing_cautions() {
-        let at = html
-            .find(&caution.heading)
-            .unwrap_or_else(|| panic!("caution {:?}", caution.heading));
+        let at = html.find(&caution.heading).unwrap_or_else(|| panic!("caution {:?}", caution.heading));
         assert!(at > last, "cautions keep their order");
         last = at;
     }
@@ -147,23 +113,15 @@ async fn the_effects_page_leads_with_comparisons_and_keeps_the_cautions() {
 #[tokio::test]
 async fn user_supplied_names_are_escaped_everywhere() {
     let state = AppState::new();
-    let analysis = Analysis::new(
-        "nasty",
-        NASTY,
-        sample_glossary(NASTY),
-        sample_fit(NASTY, NASTY),
-    )
-    .expect("valid id");
+    let analysis =
+        Analysis::new("nasty", NASTY, sample_glossary(NASTY), sample_fit(NASTY, NASTY)).expect("valid id");
     state.insert(analysis).expect("insert");
     let app = router(state, SecurityConfig::local(PORT));
     for path in ["/", "/analyses/nasty"] {
         let html = page(&app, path, StatusCode::OK).await;
         assert!(!html.contains(NASTY), "{path} contains the raw name");
         assert!(!html.contains("<script"), "{path} contains a script tag");
-        assert!(
-            html.contains(NASTY_ESCAPED),
-            "{path} shows the escaped name"
-        );
+        assert!(html.contains(NASTY_ESCAPED), "{path} shows the escaped name");
     }
     // The JSON API returns the name as data, intact.
     let response = send(&app, get("/api/analyses/nasty/fit")).await;
@@ -204,11 +162,7 @@ fn assert_page_shows(html: &str, doc: &wardcast_contract::fit::FitDocument) {
         let t = c.t_value.as_f64().expect("t defined");
         let row = [c.estimate, c.std_error, t, c.interval.low, c.interval.high];
         let found = values.windows(5).any(|w| w == row);
-        assert!(
-            found,
-            "the page shows {} exactly as the API: {row:?}",
-            c.term
-        );
+        assert!(found, "the page shows {} exactly as the API: {row:?}", c.term);
     }
 }
 
@@ -227,10 +181,7 @@ async fn the_page_shows_the_engine_fit_that_the_api_serves() {
         keys,
         vec![
             numeric("rate", [12.0, 15.5, 9.8, 20.1, 17.3, 11.0, 22.4, 14.2]),
-            numeric(
-                "unemployment_pct",
-                [4.0, 6.5, 3.2, 9.1, 7.7, 4.4, 10.2, 5.9],
-            ),
+            numeric("unemployment_pct", [4.0, 6.5, 3.2, 9.1, 7.7, 4.4, 10.2, 5.9]),
             numeric("vacancy_pct", [2.0, 3.1, 1.5, 6.0, 3.9, 2.2, 7.5, 2.8]),
         ],
     )
@@ -239,18 +190,11 @@ async fn the_page_shows_the_engine_fit_that_the_api_serves() {
     let design = Design::build(&table, &spec.to_engine().expect("spec")).expect("design");
     let fit = Fit::new(&design, &FitOptions::default()).expect("fit");
     let glossary = Glossary::new("areas")
-        .with_column(
-            "rate",
-            ColumnInfo::new("incident rate", Some("incidents per 10,000 residents")),
-        )
-        .with_column(
-            "unemployment_pct",
-            ColumnInfo::new("unemployment", Some("%")),
-        )
+        .with_column("rate", ColumnInfo::new("incident rate", Some("incidents per 10,000 residents")))
+        .with_column("unemployment_pct", ColumnInfo::new("unemployment", Some("%")))
         .with_column("vacancy_pct", ColumnInfo::new("vacancy", Some("%")));
     let doc = wardcast_contract::fit::FitDocument::from_fit(&fit, &spec).expect("document");
-    let analysis =
-        Analysis::from_fit("small", "Small table", glossary, &fit, &spec).expect("analysis");
+    let analysis = Analysis::from_fit("small", "Small table", glossary, &fit, &spec).expect("analysis");
     let state = AppState::new();
     state.insert(analysis).expect("insert");
     let app = router(state, SecurityConfig::local(PORT));
@@ -259,10 +203,7 @@ async fn the_page_shows_the_engine_fit_that_the_api_serves() {
     // The API serves the engine's document byte for byte (compared as text, so the check does
     // not depend on how a JSON reader parses floats).
     let response = send(&app, get("/api/analyses/small/fit")).await;
-    assert_eq!(
-        text(response).await,
-        serde_json::to_string(&doc).expect("json")
-    );
+    assert_eq!(text(response).await, serde_json::to_string(&doc).expect("json"));
     assert_page_shows(&html, &doc);
     assert!(html.contains("Areas one percentage point higher in unemployment"));
     assert!(html.contains("<svg"), "the interval chart is drawn");
@@ -272,23 +213,16 @@ async fn the_page_shows_the_engine_fit_that_the_api_serves() {
 async fn the_demo_starts_fitted_and_described_in_words() {
     use wardcast::web::demo::{DEMO_ID, demo_spec, demo_state};
 
-    let app = router(
-        demo_state().expect("the demo loads"),
-        SecurityConfig::local(PORT),
-    );
+    let app = router(demo_state().expect("the demo loads"), SecurityConfig::local(PORT));
     let html = page(&app, &format!("/analyses/{DEMO_ID}"), StatusCode::OK).await;
 
     // The same fit, computed independently of the web layer.
     let table = wardcast::demo::larkmoor_table().expect("demo table");
     let fitted = wardcast::analysis::Fitted::new(&table, &demo_spec()).expect("demo fit");
-    let doc = wardcast_contract::fit::FitDocument::from_fit(fitted.fit(), &demo_spec())
-        .expect("document");
+    let doc = wardcast_contract::fit::FitDocument::from_fit(fitted.fit(), &demo_spec()).expect("document");
     assert_page_shows(&html, &doc);
     let response = send(&app, get(&format!("/api/analyses/{DEMO_ID}/fit"))).await;
-    assert_eq!(
-        text(response).await,
-        serde_json::to_string(&doc).expect("json")
-    );
+    assert_eq!(text(response).await, serde_json::to_string(&doc).expect("json"));
 
     // One comparison sentence per indicator, using the demo's labels and units.
     for phrase in [
@@ -299,14 +233,9 @@ async fn the_demo_starts_fitted_and_described_in_words() {
         "higher in after-school programme seats",
         "incidents per 10,000 residents per year (95% interval",
     ] {
-        assert!(
-            html.contains(phrase),
-            "the demo page should contain {phrase:?}"
-        );
+        assert!(html.contains(phrase), "the demo page should contain {phrase:?}");
     }
     assert!(html.contains("<svg"), "the interval chart is drawn");
     let start = page(&app, "/", StatusCode::OK).await;
-    assert!(start.contains(&format!(
-        "<a href=\"/analyses/{DEMO_ID}\">Larkmoor demo</a>"
-    )));
+    assert!(start.contains(&format!("<a href=\"/analyses/{DEMO_ID}\">Larkmoor demo</a>")));
 }

@@ -9,9 +9,7 @@ use http_body_util::channel::Channel;
 use wardcast::security::{CONTENT_SECURITY_POLICY, Limits, SESSION_COOKIE, SecurityConfig, Token};
 use wardcast::web::router;
 
-use crate::{
-    HOST, LAN, PORT, get, header_of, local_app, sample_state, send, shared_app, test_token, text,
-};
+use crate::{HOST, LAN, PORT, get, header_of, local_app, sample_state, send, shared_app, test_token, text};
 
 /// The LAN Host header in sharing tests.
 const LAN_HOST: &str = "192.0.2.10:7878";
@@ -47,26 +45,10 @@ fn form(token: &str) -> Body {
 }
 
 fn assert_security_headers(response: &axum::http::Response<Body>, what: &str) {
-    assert_eq!(
-        header_of(response, "content-security-policy"),
-        CONTENT_SECURITY_POLICY,
-        "CSP on {what}"
-    );
-    assert_eq!(
-        header_of(response, "x-content-type-options"),
-        "nosniff",
-        "nosniff on {what}"
-    );
-    assert_eq!(
-        header_of(response, "referrer-policy"),
-        "no-referrer",
-        "referrer policy on {what}"
-    );
-    assert_eq!(
-        header_of(response, "x-frame-options"),
-        "DENY",
-        "framing on {what}"
-    );
+    assert_eq!(header_of(response, "content-security-policy"), CONTENT_SECURITY_POLICY, "CSP on {what}");
+    assert_eq!(header_of(response, "x-content-type-options"), "nosniff", "nosniff on {what}");
+    assert_eq!(header_of(response, "referrer-policy"), "no-referrer", "referrer policy on {what}");
+    assert_eq!(header_of(response, "x-frame-options"), "DENY", "framing on {what}");
 }
 
 #[test]
@@ -82,10 +64,7 @@ fn the_policy_forbids_inline_script_and_framing() {
         "base-uri 'none'",
         "form-action 'self'",
     ] {
-        assert!(
-            CONTENT_SECURITY_POLICY.contains(directive),
-            "missing {directive}"
-        );
+        assert!(CONTENT_SECURITY_POLICY.contains(directive), "missing {directive}");
     }
     assert!(!CONTENT_SECURITY_POLICY.contains("unsafe-inline"));
     assert!(!CONTENT_SECURITY_POLICY.contains("unsafe-eval"));
@@ -98,32 +77,13 @@ async fn every_response_carries_the_security_headers() {
         (get("/"), StatusCode::OK, "the start page"),
         (get("/analyses/demo"), StatusCode::OK, "the effects page"),
         (get("/api/analyses"), StatusCode::OK, "the JSON list"),
-        (
-            get("/api/analyses/demo/fit"),
-            StatusCode::OK,
-            "the fit document",
-        ),
+        (get("/api/analyses/demo/fit"), StatusCode::OK, "the fit document"),
         (get("/assets/style.css"), StatusCode::OK, "the stylesheet"),
+        (get("/no/such/page"), StatusCode::NOT_FOUND, "a missing page"),
+        (get("/assets/missing.css"), StatusCode::NOT_FOUND, "a missing asset"),
+        (with_host(Method::GET, "/", Some("evil.example")), StatusCode::FORBIDDEN, "a refused host"),
         (
-            get("/no/such/page"),
-            StatusCode::NOT_FOUND,
-            "a missing page",
-        ),
-        (
-            get("/assets/missing.css"),
-            StatusCode::NOT_FOUND,
-            "a missing asset",
-        ),
-        (
-            with_host(Method::GET, "/", Some("evil.example")),
-            StatusCode::FORBIDDEN,
-            "a refused host",
-        ),
-        (
-            Request::post("/")
-                .header(header::HOST, HOST)
-                .body(Body::empty())
-                .expect("request"),
+            Request::post("/").header(header::HOST, HOST).body(Body::empty()).expect("request"),
             StatusCode::METHOD_NOT_ALLOWED,
             "a wrong method",
         ),
@@ -133,25 +93,15 @@ async fn every_response_carries_the_security_headers() {
         assert_security_headers(&response, what);
     }
     let shared = shared_app();
-    let refused = check(
-        &shared,
-        with_host(Method::GET, "/", Some(LAN_HOST)),
-        StatusCode::FORBIDDEN,
-        "no session",
-    )
-    .await;
+    let refused =
+        check(&shared, with_host(Method::GET, "/", Some(LAN_HOST)), StatusCode::FORBIDDEN, "no session")
+            .await;
     assert_security_headers(&refused, "a sharing refusal");
 }
 
 #[tokio::test]
 async fn the_stylesheet_is_served_as_css() {
-    let response = check(
-        &local_app(),
-        get("/assets/style.css"),
-        StatusCode::OK,
-        "stylesheet",
-    )
-    .await;
+    let response = check(&local_app(), get("/assets/style.css"), StatusCode::OK, "stylesheet").await;
     assert!(header_of(&response, "content-type").starts_with("text/css"));
     assert!(text(response).await.contains("@media print"));
 }
@@ -173,33 +123,16 @@ async fn only_local_host_names_with_our_port_are_answered() {
         (None, StatusCode::FORBIDDEN),
     ];
     for (host, expected) in cases {
-        check(
-            &app,
-            with_host(Method::GET, "/", host),
-            expected,
-            &format!("Host {host:?}"),
-        )
-        .await;
+        check(&app, with_host(Method::GET, "/", host), expected, &format!("Host {host:?}")).await;
     }
 }
 
 #[tokio::test]
 async fn port_80_may_be_left_out_of_the_host() {
     let app = router(sample_state(), SecurityConfig::local(80));
-    check(
-        &app,
-        with_host(Method::GET, "/", Some("localhost")),
-        StatusCode::OK,
-        "bare localhost on port 80",
-    )
-    .await;
-    check(
-        &app,
-        with_host(Method::GET, "/", Some("localhost:80")),
-        StatusCode::OK,
-        "localhost:80",
-    )
-    .await;
+    check(&app, with_host(Method::GET, "/", Some("localhost")), StatusCode::OK, "bare localhost on port 80")
+        .await;
+    check(&app, with_host(Method::GET, "/", Some("localhost:80")), StatusCode::OK, "localhost:80").await;
 }
 
 #[tokio::test]
@@ -211,20 +144,9 @@ async fn sharing_adds_the_lan_address_to_the_allowed_hosts() {
     let app = shared_app();
     // Joining works through the LAN address; another address on the LAN is refused.
     let ok = format!("/join?t={}", test_token().to_hex());
-    check(
-        &app,
-        with_host(Method::GET, &ok, Some(LAN_HOST)),
-        StatusCode::OK,
-        "LAN host",
-    )
-    .await;
-    check(
-        &app,
-        with_host(Method::GET, &ok, Some("192.0.2.11:7878")),
-        StatusCode::FORBIDDEN,
-        "other host",
-    )
-    .await;
+    check(&app, with_host(Method::GET, &ok, Some(LAN_HOST)), StatusCode::OK, "LAN host").await;
+    check(&app, with_host(Method::GET, &ok, Some("192.0.2.11:7878")), StatusCode::FORBIDDEN, "other host")
+        .await;
 }
 
 #[tokio::test]
@@ -241,21 +163,9 @@ async fn state_changing_requests_from_other_sites_are_refused() {
         (None, Some("null"), StatusCode::FORBIDDEN),
         (None, Some("https://192.0.2.10:7878"), StatusCode::FORBIDDEN),
         (None, Some("http://192.0.2.10:9999"), StatusCode::FORBIDDEN),
-        (
-            Some("same-origin"),
-            Some("http://evil.example"),
-            StatusCode::FORBIDDEN,
-        ),
-        (
-            Some("cross-site"),
-            Some("http://192.0.2.10:7878"),
-            StatusCode::FORBIDDEN,
-        ),
-        (
-            Some("same-origin"),
-            Some("http://192.0.2.10:7878"),
-            StatusCode::SEE_OTHER,
-        ),
+        (Some("same-origin"), Some("http://evil.example"), StatusCode::FORBIDDEN),
+        (Some("cross-site"), Some("http://192.0.2.10:7878"), StatusCode::FORBIDDEN),
+        (Some("same-origin"), Some("http://192.0.2.10:7878"), StatusCode::SEE_OTHER),
         (Some("none"), None, StatusCode::SEE_OTHER),
         (None, Some("http://192.0.2.10:7878"), StatusCode::SEE_OTHER),
         // A script using the API sends neither header.
@@ -269,18 +179,11 @@ async fn state_changing_requests_from_other_sites_are_refused() {
         if let Some(o) = origin {
             b = b.header(header::ORIGIN, o);
         }
-        let response = check(
-            &app,
-            b.body(form(&token)).expect("request"),
-            expected,
-            &format!("{site:?} {origin:?}"),
-        )
-        .await;
+        let response =
+            check(&app, b.body(form(&token)).expect("request"), expected, &format!("{site:?} {origin:?}"))
+                .await;
         if expected == StatusCode::FORBIDDEN {
-            assert!(
-                header_of(&response, "set-cookie").is_empty(),
-                "no session on a refusal"
-            );
+            assert!(header_of(&response, "set-cookie").is_empty(), "no session on a refusal");
         }
     }
 }
@@ -297,13 +200,7 @@ async fn the_cross_site_check_covers_every_route_and_method() {
                 .header("sec-fetch-site", "cross-site")
                 .body(Body::empty())
                 .expect("request");
-            check(
-                &app,
-                request,
-                StatusCode::FORBIDDEN,
-                &format!("{method} {path}"),
-            )
-            .await;
+            check(&app, request, StatusCode::FORBIDDEN, &format!("{method} {path}")).await;
         }
     }
     // Safe methods are not subject to it: a cross-site GET of a page is an ordinary link.
@@ -311,13 +208,7 @@ async fn the_cross_site_check_covers_every_route_and_method() {
         .header(header::HOST, HOST)
         .header("sec-fetch-site", "cross-site")
         .body(Body::empty());
-    check(
-        &app,
-        request.expect("request"),
-        StatusCode::OK,
-        "cross-site GET",
-    )
-    .await;
+    check(&app, request.expect("request"), StatusCode::OK, "cross-site GET").await;
 }
 
 #[tokio::test]
@@ -326,48 +217,24 @@ async fn joining_exchanges_the_token_for_a_session_cookie() {
     let token = test_token().to_hex();
 
     // Without a session every page is refused, and the refusal explains how to join.
-    let refused = check(
-        &app,
-        with_host(Method::GET, "/", Some(LAN_HOST)),
-        StatusCode::FORBIDDEN,
-        "no session",
-    )
-    .await;
+    let refused =
+        check(&app, with_host(Method::GET, "/", Some(LAN_HOST)), StatusCode::FORBIDDEN, "no session").await;
     assert!(text(refused).await.contains("Open the link"));
 
     // Step 1: the link shows a continue page with the token in a hidden field of a POST form.
     let link = format!("/join?t={token}");
-    let page = check(
-        &app,
-        with_host(Method::GET, &link, Some(LAN_HOST)),
-        StatusCode::OK,
-        "join page",
-    )
-    .await;
-    assert!(
-        header_of(&page, "set-cookie").is_empty(),
-        "showing the join page changes nothing"
-    );
+    let page = check(&app, with_host(Method::GET, &link, Some(LAN_HOST)), StatusCode::OK, "join page").await;
+    assert!(header_of(&page, "set-cookie").is_empty(), "showing the join page changes nothing");
     assert_eq!(header_of(&page, "referrer-policy"), "no-referrer");
     assert_eq!(header_of(&page, "cache-control"), "no-store");
     let html = text(page).await;
     assert!(html.contains("<form method=\"post\" action=\"/join\">"));
-    assert!(html.contains(&format!(
-        "<input type=\"hidden\" name=\"t\" value=\"{token}\">"
-    )));
-    assert!(
-        html.contains("plain HTTP"),
-        "the page warns that the connection is visible on the LAN"
-    );
+    assert!(html.contains(&format!("<input type=\"hidden\" name=\"t\" value=\"{token}\">")));
+    assert!(html.contains("plain HTTP"), "the page warns that the connection is visible on the LAN");
 
     // Still no session after the GET: GET never changes state.
-    check(
-        &app,
-        with_host(Method::GET, "/", Some(LAN_HOST)),
-        StatusCode::FORBIDDEN,
-        "GET made no session",
-    )
-    .await;
+    check(&app, with_host(Method::GET, "/", Some(LAN_HOST)), StatusCode::FORBIDDEN, "GET made no session")
+        .await;
 
     // Step 2: the same-origin POST sets the cookie and sends the browser to / with a 303.
     let post = join_post(LAN_HOST)
@@ -378,15 +245,9 @@ async fn joining_exchanges_the_token_for_a_session_cookie() {
     let answer = check(&app, post, StatusCode::SEE_OTHER, "token exchange").await;
     assert_eq!(header_of(&answer, "location"), "/");
     let cookie = header_of(&answer, "set-cookie");
-    assert!(
-        cookie.starts_with(&format!("{SESSION_COOKIE}=")),
-        "{cookie}"
-    );
+    assert!(cookie.starts_with(&format!("{SESSION_COOKIE}=")), "{cookie}");
     for attribute in ["HttpOnly", "SameSite=Strict", "Path=/"] {
-        assert!(
-            cookie.contains(attribute),
-            "cookie lacks {attribute}: {cookie}"
-        );
+        assert!(cookie.contains(attribute), "cookie lacks {attribute}: {cookie}");
     }
     assert!(!cookie.contains(&token), "the session is not the token");
     let pair = cookie.split(';').next().expect("name=value").to_owned();
@@ -399,30 +260,12 @@ async fn joining_exchanges_the_token_for_a_session_cookie() {
             .body(Body::empty())
             .expect("request")
     };
-    let start = check(
-        &app,
-        with_cookie("/"),
-        StatusCode::OK,
-        "start page with session",
-    )
-    .await;
+    let start = check(&app, with_cookie("/"), StatusCode::OK, "start page with session").await;
     let html = text(start).await;
     assert!(html.contains("Shared on the local network"));
     assert!(html.contains("anyone else on the same network can read"));
-    check(
-        &app,
-        with_cookie("/analyses/demo"),
-        StatusCode::OK,
-        "effects page with session",
-    )
-    .await;
-    check(
-        &app,
-        with_cookie("/api/analyses/demo/fit"),
-        StatusCode::OK,
-        "API with session",
-    )
-    .await;
+    check(&app, with_cookie("/analyses/demo"), StatusCode::OK, "effects page with session").await;
+    check(&app, with_cookie("/api/analyses/demo/fit"), StatusCode::OK, "API with session").await;
 
     // The cookie may sit among others.
     let mixed = Request::get("/")
@@ -466,10 +309,8 @@ async fn bad_sessions_and_tokens_are_refused() {
         "malformed token link",
     )
     .await;
-    let post = join_post(LAN_HOST)
-        .header("sec-fetch-site", "same-origin")
-        .body(form(&wrong))
-        .expect("request");
+    let post =
+        join_post(LAN_HOST).header("sec-fetch-site", "same-origin").body(form(&wrong)).expect("request");
     let refused = check(&app, post, StatusCode::FORBIDDEN, "wrong token posted").await;
     assert!(header_of(&refused, "set-cookie").is_empty());
 }
@@ -480,20 +321,10 @@ async fn each_bad_join_request_gets_its_own_answer() {
     let token = test_token().to_hex();
     // (request, status, phrase in the page)
     let cases: Vec<(Request<Body>, StatusCode, &str)> = vec![
+        (with_host(Method::GET, "/join", Some(LAN_HOST)), StatusCode::BAD_REQUEST, "has no token"),
+        (with_host(Method::GET, "/join?t=", Some(LAN_HOST)), StatusCode::BAD_REQUEST, "has no token"),
         (
-            with_host(Method::GET, "/join", Some(LAN_HOST)),
-            StatusCode::BAD_REQUEST,
-            "has no token",
-        ),
-        (
-            with_host(Method::GET, "/join?t=", Some(LAN_HOST)),
-            StatusCode::BAD_REQUEST,
-            "has no token",
-        ),
-        (
-            join_post(LAN_HOST)
-                .body(Body::from("x=1"))
-                .expect("request"),
+            join_post(LAN_HOST).body(Body::from("x=1")).expect("request"),
             StatusCode::BAD_REQUEST,
             "no token field",
         ),
@@ -507,17 +338,12 @@ async fn each_bad_join_request_gets_its_own_answer() {
             "sent as a web form",
         ),
         (
-            join_post(LAN_HOST)
-                .body(Body::from("t=%zz"))
-                .expect("request"),
+            join_post(LAN_HOST).body(Body::from("t=%zz")).expect("request"),
             StatusCode::BAD_REQUEST,
             "no token field",
         ),
         (
-            Request::put("/join")
-                .header(header::HOST, LAN_HOST)
-                .body(Body::empty())
-                .expect("request"),
+            Request::put("/join").header(header::HOST, LAN_HOST).body(Body::empty()).expect("request"),
             StatusCode::METHOD_NOT_ALLOWED,
             "",
         ),
@@ -525,38 +351,17 @@ async fn each_bad_join_request_gets_its_own_answer() {
     for (request, status, phrase) in cases {
         let what = format!("{} {}", request.method(), request.uri());
         let response = check(&app, request, status, &what).await;
-        assert!(
-            text(response).await.contains(phrase),
-            "{what} should say {phrase:?}"
-        );
+        assert!(text(response).await.contains(phrase), "{what} should say {phrase:?}");
     }
 }
 
 #[tokio::test]
 async fn assets_and_the_join_step_are_open_without_a_session() {
     let app = shared_app();
-    check(
-        &app,
-        with_host(Method::GET, "/assets/style.css", Some(LAN_HOST)),
-        StatusCode::OK,
-        "stylesheet",
-    )
-    .await;
-    for path in [
-        "/",
-        "/analyses/demo",
-        "/api/analyses",
-        "/api/analyses/demo/fit",
-        "/joinx",
-        "/join/x",
-    ] {
-        check(
-            &app,
-            with_host(Method::GET, path, Some(LAN_HOST)),
-            StatusCode::FORBIDDEN,
-            path,
-        )
+    check(&app, with_host(Method::GET, "/assets/style.css", Some(LAN_HOST)), StatusCode::OK, "stylesheet")
         .await;
+    for path in ["/", "/analyses/demo", "/api/analyses", "/api/analyses/demo/fit", "/joinx", "/join/x"] {
+        check(&app, with_host(Method::GET, path, Some(LAN_HOST)), StatusCode::FORBIDDEN, path).await;
     }
 }
 
@@ -564,17 +369,8 @@ async fn assets_and_the_join_step_are_open_without_a_session() {
 async fn without_sharing_there_is_nothing_to_join() {
     let app = local_app();
     let token = test_token().to_hex();
-    check(
-        &app,
-        get(&format!("/join?t={token}")),
-        StatusCode::NOT_FOUND,
-        "join link",
-    )
-    .await;
-    let post = join_post(HOST)
-        .header("sec-fetch-site", "same-origin")
-        .body(form(&token))
-        .expect("request");
+    check(&app, get(&format!("/join?t={token}")), StatusCode::NOT_FOUND, "join link").await;
+    let post = join_post(HOST).header("sec-fetch-site", "same-origin").body(form(&token)).expect("request");
     let response = check(&app, post, StatusCode::NOT_FOUND, "join post").await;
     assert!(header_of(&response, "set-cookie").is_empty());
 }
@@ -588,19 +384,12 @@ fn tokens_are_random_hex_and_compared_whole() {
     assert_eq!(hex.len(), 64);
     assert!(hex.bytes().all(|c| c.is_ascii_hexdigit()));
     assert!(a.matches(&hex));
-    assert!(
-        a.matches(&hex.to_uppercase()),
-        "hex digits are case-insensitive"
-    );
+    assert!(a.matches(&hex.to_uppercase()), "hex digits are case-insensitive");
     assert!(!a.matches(&hex[..63]));
     assert!(!a.matches(&format!("{hex}0")));
     assert!(!a.matches(""));
     assert!(!a.matches(&b.to_hex()));
-    assert_eq!(
-        format!("{a:?}"),
-        "Token(…)",
-        "the token never appears in logs"
-    );
+    assert_eq!(format!("{a:?}"), "Token(…)", "the token never appears in logs");
 }
 
 #[test]
@@ -612,42 +401,25 @@ fn the_share_link_carries_the_lan_address_port_and_token() {
     );
     let v6: std::net::IpAddr = "fd00::5".parse().expect("address");
     let config = SecurityConfig::shared(8080, v6, test_token());
-    assert!(
-        config
-            .share_link()
-            .expect("link")
-            .starts_with("http://[fd00::5]:8080/join?t=")
-    );
+    assert!(config.share_link().expect("link").starts_with("http://[fd00::5]:8080/join?t="));
     assert!(config.host_allowed("[fd00::5]:8080"));
     assert!(SecurityConfig::local(PORT).share_link().is_none());
 }
 
 fn limited(limits: Limits) -> axum::Router {
-    router(
-        sample_state(),
-        SecurityConfig::shared(PORT, LAN, test_token()).with_limits(limits),
-    )
+    router(sample_state(), SecurityConfig::shared(PORT, LAN, test_token()).with_limits(limits))
 }
 
 #[tokio::test]
 async fn bodies_over_the_limit_are_refused() {
-    let app = limited(Limits {
-        body_bytes: 64,
-        ..Limits::default()
-    });
+    let app = limited(Limits { body_bytes: 64, ..Limits::default() });
     let big = format!("t={}&pad={}", test_token().to_hex(), "x".repeat(200));
     // A declared length over the limit is refused before the body is read.
     let declared = join_post(LAN_HOST)
         .header(header::CONTENT_LENGTH, big.len())
         .body(Body::from(big.clone()))
         .expect("request");
-    check(
-        &app,
-        declared,
-        StatusCode::PAYLOAD_TOO_LARGE,
-        "declared length",
-    )
-    .await;
+    check(&app, declared, StatusCode::PAYLOAD_TOO_LARGE, "declared length").await;
     // A streamed body without a declared length is cut off at the limit.
     let (mut tx, body) = Channel::<Bytes, std::convert::Infallible>::new(4);
     tokio::spawn(async move {
@@ -658,13 +430,7 @@ async fn bodies_over_the_limit_are_refused() {
         }
     });
     let streamed = join_post(LAN_HOST).body(Body::new(body)).expect("request");
-    let response = check(
-        &app,
-        streamed,
-        StatusCode::PAYLOAD_TOO_LARGE,
-        "streamed body",
-    )
-    .await;
+    let response = check(&app, streamed, StatusCode::PAYLOAD_TOO_LARGE, "streamed body").await;
     assert!(text(response).await.contains("larger than the limit"));
     // The default limit for uploads is 256 MB.
     assert_eq!(Limits::default().body_bytes, 256 * 1024 * 1024);
@@ -673,28 +439,20 @@ async fn bodies_over_the_limit_are_refused() {
 #[tokio::test]
 async fn a_stalled_body_times_out() {
     // The body idles longer than allowed between pieces.
-    let app = limited(Limits {
-        body_idle: Duration::from_millis(100),
-        ..Limits::default()
-    });
+    let app = limited(Limits { body_idle: Duration::from_millis(100), ..Limits::default() });
     let (tx, body) = Channel::<Bytes, std::convert::Infallible>::new(1);
     let request = join_post(LAN_HOST).body(Body::new(body)).expect("request");
-    let response = tokio::time::timeout(Duration::from_secs(10), send(&app, request))
-        .await
-        .expect("answered in time");
+    let response =
+        tokio::time::timeout(Duration::from_secs(10), send(&app, request)).await.expect("answered in time");
     assert_eq!(response.status(), StatusCode::REQUEST_TIMEOUT);
     drop(tx);
 
     // The whole request takes longer than allowed.
-    let app = limited(Limits {
-        request: Duration::from_millis(100),
-        ..Limits::default()
-    });
+    let app = limited(Limits { request: Duration::from_millis(100), ..Limits::default() });
     let (tx, body) = Channel::<Bytes, std::convert::Infallible>::new(1);
     let request = join_post(LAN_HOST).body(Body::new(body)).expect("request");
-    let response = tokio::time::timeout(Duration::from_secs(10), send(&app, request))
-        .await
-        .expect("answered in time");
+    let response =
+        tokio::time::timeout(Duration::from_secs(10), send(&app, request)).await.expect("answered in time");
     assert_eq!(response.status(), StatusCode::REQUEST_TIMEOUT);
     assert_security_headers(&response, "a timeout");
     drop(tx);

@@ -1,8 +1,7 @@
 //! Wording: number formatting, matching terms to the spec, and comparison sentences.
 
 use wardcast::web::words::{
-    Estimate, TermKind, Wording, classify_terms, comparison_sentence, fmt_level, fmt_p, fmt_plain,
-    fmt_sig,
+    Estimate, TermKind, Wording, classify_terms, comparison_sentence, fmt_level, fmt_p, fmt_plain, fmt_sig,
 };
 use wardcast::web::{ColumnInfo, Glossary};
 use wardcast_contract::spec::{ModelSpec, PredictorSpec, TransformSpec};
@@ -36,13 +35,7 @@ fn numbers_are_rounded_to_significant_digits() {
 
 #[test]
 fn plain_numbers_levels_and_p_values() {
-    let plain = [
-        (1.0, "1"),
-        (0.5, "0.5"),
-        (1000.0, "1,000"),
-        (2.25, "2.25"),
-        (0.1, "0.1"),
-    ];
+    let plain = [(1.0, "1"), (0.5, "0.5"), (1000.0, "1,000"), (2.25, "2.25"), (0.1, "0.1")];
     for (x, expected) in plain {
         assert_eq!(fmt_plain(x), expected, "fmt_plain({x})");
     }
@@ -63,103 +56,52 @@ fn plain_numbers_levels_and_p_values() {
     }
 }
 
-fn predictor(
-    column: &str,
-    transform: Option<TransformSpec>,
-    reference: Option<&str>,
-) -> PredictorSpec {
-    PredictorSpec {
-        column: column.into(),
-        transform,
-        reference_level: reference.map(str::to_owned),
-    }
+fn predictor(column: &str, transform: Option<TransformSpec>, reference: Option<&str>) -> PredictorSpec {
+    PredictorSpec { column: column.into(), transform, reference_level: reference.map(str::to_owned) }
 }
 
 #[test]
 fn terms_are_matched_to_the_spec_in_order() {
     let mut spec = ModelSpec::new("rate", ["a"]);
     spec.predictors.push(predictor("type", None, None));
-    spec.predictors
-        .push(predictor("b", Some(TransformSpec::Log), None));
+    spec.predictors.push(predictor("b", Some(TransformSpec::Log), None));
     spec.predictors.push(predictor("ab", None, None));
-    let terms: Vec<String> = ["a", "type=centre", "type=mixed", "log(b)", "ab"]
-        .iter()
-        .map(|s| (*s).to_owned())
-        .collect();
+    let terms: Vec<String> =
+        ["a", "type=centre", "type=mixed", "log(b)", "ab"].iter().map(|s| (*s).to_owned()).collect();
     let kinds = classify_terms(&spec, &terms);
     assert_eq!(
         kinds,
         vec![
-            TermKind::Numeric {
-                column: "a".into(),
-                transform: None
-            },
-            TermKind::Level {
-                column: "type".into(),
-                level: "centre".into(),
-                reference: None
-            },
-            TermKind::Level {
-                column: "type".into(),
-                level: "mixed".into(),
-                reference: None
-            },
-            TermKind::Numeric {
-                column: "b".into(),
-                transform: Some(TransformSpec::Log)
-            },
-            TermKind::Numeric {
-                column: "ab".into(),
-                transform: None
-            },
+            TermKind::Numeric { column: "a".into(), transform: None },
+            TermKind::Level { column: "type".into(), level: "centre".into(), reference: None },
+            TermKind::Level { column: "type".into(), level: "mixed".into(), reference: None },
+            TermKind::Numeric { column: "b".into(), transform: Some(TransformSpec::Log) },
+            TermKind::Numeric { column: "ab".into(), transform: None },
         ]
     );
     // Terms that do not line up with the spec are kept, described by their label only.
-    let odd: Vec<String> = ["zzz", "a", "extra"]
-        .iter()
-        .map(|s| (*s).to_owned())
-        .collect();
+    let odd: Vec<String> = ["zzz", "a", "extra"].iter().map(|s| (*s).to_owned()).collect();
     let kinds = classify_terms(&ModelSpec::new("rate", ["a"]), &odd);
     assert_eq!(
         kinds,
-        vec![
-            TermKind::Other("zzz".into()),
-            TermKind::Other("a".into()),
-            TermKind::Other("extra".into())
-        ]
+        vec![TermKind::Other("zzz".into()), TermKind::Other("a".into()), TermKind::Other("extra".into())]
     );
 }
 
 fn glossary() -> Glossary {
     Glossary::new("districts")
-        .with_column(
-            "rate",
-            ColumnInfo::new("Assault rate", Some("incidents per 10,000 residents")),
-        )
-        .with_column(
-            "share",
-            ColumnInfo::new("Residents aged 15–24", Some("% of residents")),
-        )
-        .with_column(
-            "income",
-            ColumnInfo::new("Median household income", Some("$")).with_step(1000.0),
-        )
+        .with_column("rate", ColumnInfo::new("Assault rate", Some("incidents per 10,000 residents")))
+        .with_column("share", ColumnInfo::new("Residents aged 15–24", Some("% of residents")))
+        .with_column("income", ColumnInfo::new("Median household income", Some("$")).with_step(1000.0))
         .with_column(
             "marks",
-            ColumnInfo::new("Median household income", Some("marks per household"))
-                .with_step(1000.0),
+            ColumnInfo::new("Median household income", Some("marks per household")).with_step(1000.0),
         )
         .with_column(
             "outlets",
-            ColumnInfo::new(
-                "Licensed alcohol outlets",
-                Some("outlets per 1,000 residents"),
-            ),
+            ColumnInfo::new("Licensed alcohol outlets", Some("outlets per 1,000 residents")),
         )
-        .with_column(
-            "vacancy",
-            ColumnInfo::new("Vacant dwellings", Some("% of dwellings")),
-        )
+        .with_column("vacancy", ColumnInfo::new("Vacant dwellings", Some("% of dwellings")))
         .with_column("type", ColumnInfo::new("District type", None))
         .with_column("pct_rate", ColumnInfo::new("Clearance rate", Some("%")))
         .with_column("spend", ColumnInfo::new("Spending", Some("$")))
@@ -189,10 +131,7 @@ fn check(case: Case) {
 }
 
 fn numeric(column: &str) -> TermKind {
-    TermKind::Numeric {
-        column: column.into(),
-        transform: None,
-    }
+    TermKind::Numeric { column: column.into(), transform: None }
 }
 
 #[test]
@@ -236,10 +175,7 @@ fn coefficients_become_comparisons_between_areas() {
                        difference at all.",
         },
         Case {
-            kind: TermKind::Numeric {
-                column: "vacancy".into(),
-                transform: Some(TransformSpec::Log),
-            },
+            kind: TermKind::Numeric { column: "vacancy".into(), transform: Some(TransformSpec::Log) },
             estimate: (10.0, 5.0, 15.0),
             response: "rate",
             response_transform: None,
@@ -262,11 +198,7 @@ fn coefficients_become_comparisons_between_areas() {
                        average 3.5 fewer incidents per 10,000 residents (95% interval 0.5 to 6.5 fewer).",
         },
         Case {
-            kind: TermKind::Level {
-                column: "type".into(),
-                level: "mixed".into(),
-                reference: None,
-            },
+            kind: TermKind::Level { column: "type".into(), level: "mixed".into(), reference: None },
             estimate: (1.0, 0.5, 1.5),
             response: "rate",
             response_transform: None,
@@ -323,10 +255,7 @@ fn coefficients_become_comparisons_between_areas() {
                        all.",
         },
         Case {
-            kind: TermKind::Numeric {
-                column: "share".into(),
-                transform: Some(TransformSpec::Sqrt),
-            },
+            kind: TermKind::Numeric { column: "share".into(), transform: Some(TransformSpec::Sqrt) },
             estimate: (2.0, 1.0, 3.0),
             response: "rate",
             response_transform: Some(TransformSpec::Sqrt),
@@ -354,10 +283,10 @@ fn comparison_steps_follow_the_spread_of_the_data() {
     use wardcast::web::state::round_step;
     // (values, expected step): the power of ten at or below the sample standard deviation.
     let cases: [(&[f64], Option<f64>); 6] = [
-        (&[1.0, 2.0, 3.0, 4.0, 5.0], Some(1.0)), // sd 1.58
+        (&[1.0, 2.0, 3.0, 4.0, 5.0], Some(1.0)),                     // sd 1.58
         (&[21_000.0, 30_000.0, 38_000.0, 45_000.0], Some(10_000.0)), // sd 10,300
-        (&[21_000.0, 24_000.0, 27_000.0, 30_000.0], Some(1_000.0)), // sd 3,870
-        (&[0.11, 0.12, 0.16, 0.18], Some(0.01)), // sd 0.033
+        (&[21_000.0, 24_000.0, 27_000.0, 30_000.0], Some(1_000.0)),  // sd 3,870
+        (&[0.11, 0.12, 0.16, 0.18], Some(0.01)),                     // sd 0.033
         (&[5.0, 5.0, 5.0], None),
         (&[5.0], None),
     ];
@@ -376,16 +305,7 @@ fn a_glossary_reads_labels_and_units_from_column_metadata() {
     code.unit = Some(" ".into());
     let g = Glossary::from_meta("districts", &[unemployment, code]);
     assert_eq!(g.areas(), "districts");
-    assert_eq!(
-        g.column("unemployment_pct"),
-        ColumnInfo::new("Unemployment", Some("% of labour force"))
-    );
-    assert_eq!(
-        g.column("district_code"),
-        ColumnInfo::new("district_code", None)
-    );
-    assert_eq!(
-        g.column("not_described"),
-        ColumnInfo::new("not_described", None)
-    );
+    assert_eq!(g.column("unemployment_pct"), ColumnInfo::new("Unemployment", Some("% of labour force")));
+    assert_eq!(g.column("district_code"), ColumnInfo::new("district_code", None));
+    assert_eq!(g.column("not_described"), ColumnInfo::new("not_described", None));
 }

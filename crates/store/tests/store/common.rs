@@ -7,16 +7,12 @@ use wardcast_store::{ImportOptions, StagedImport, Store, import_file};
 
 /// A fixture under tests/fixtures/import.
 pub fn fixture(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/fixtures/import")
-        .join(name)
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/import").join(name)
 }
 
 /// A file of the demo scenario, waiting up to a minute for it to appear.
 pub fn demo(name: &str) -> PathBuf {
-    let path = Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("../../demo")
-        .join(name);
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../demo").join(name);
     for _ in 0..120 {
         if path.is_file() {
             break;
@@ -45,11 +41,7 @@ pub fn temp_store() -> (tempfile::TempDir, Store) {
 /// The values of a text column.
 pub fn texts(frame: &DataFrame, name: &str) -> Vec<Option<String>> {
     let s = frame.column(name).expect("column").as_materialized_series();
-    s.str()
-        .expect("text column")
-        .iter()
-        .map(|v| v.map(str::to_owned))
-        .collect()
+    s.str().expect("text column").iter().map(|v| v.map(str::to_owned)).collect()
 }
 
 /// The values of a decimal column.

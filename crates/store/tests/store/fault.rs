@@ -25,13 +25,7 @@ const ANALYSIS_ID: &str = "fault-analysis";
 fn content(v: u64) -> String {
     let mut s = String::from("district_code,incidents,residents,share_pct\n");
     for i in 0..500u64 {
-        s.push_str(&format!(
-            "D{i:04},{},{},{}.{}\n",
-            (v * 7 + i) % 50,
-            1000 + v + i,
-            v % 90,
-            i % 10
-        ));
+        s.push_str(&format!("D{i:04},{},{},{}.{}\n", (v * 7 + i) % 50, 1000 + v + i, v % 90, i % 10));
     }
     s
 }
@@ -45,10 +39,7 @@ fn analysis(v: u64) -> SavedAnalysis {
         question: "Does the store survive being killed?".into(),
         author: "fault test".into(),
         model_spec: ModelSpec::new("incidents", ["share_pct"]),
-        cv: CvSettings {
-            folds: 5,
-            seeds: vec![v],
-        },
+        cv: CvSettings { folds: 5, seeds: vec![v] },
         scenario: json!({}),
         allocation: json!({}),
         created_unix: 0,
@@ -66,20 +57,12 @@ fn child(root: &Path) -> ! {
     let mut out = std::io::stdout().lock();
     loop {
         v += 1;
-        let staged = import_bytes(
-            content(v).as_bytes(),
-            "fault.csv",
-            &ImportOptions::default(),
-        )
-        .expect("import");
+        let staged =
+            import_bytes(content(v).as_bytes(), "fault.csv", &ImportOptions::default()).expect("import");
         store.save_import("fault", &staged).expect("save dataset");
-        writeln!(out, "committed dataset {v}")
-            .and_then(|()| out.flush())
-            .expect("report");
+        writeln!(out, "committed dataset {v}").and_then(|()| out.flush()).expect("report");
         store.save_analysis(analysis(v)).expect("save analysis");
-        writeln!(out, "committed analysis {v}")
-            .and_then(|()| out.flush())
-            .expect("report");
+        writeln!(out, "committed analysis {v}").and_then(|()| out.flush()).expect("report");
     }
 }
 
@@ -109,12 +92,7 @@ fn sigkill_during_saves_loses_nothing() {
     let mut interrupted_writes = 0usize;
     for kill in 0..KILLS {
         let mut proc = Command::new(&exe)
-            .args([
-                "fault::sigkill_during_saves_loses_nothing",
-                "--exact",
-                "--nocapture",
-                "--test-threads=1",
-            ])
+            .args(["fault::sigkill_during_saves_loses_nothing", "--exact", "--nocapture", "--test-threads=1"])
             .env(CHILD_ENV, &root)
             .stdout(Stdio::piped())
             .stderr(Stdio::null())
@@ -122,10 +100,7 @@ fn sigkill_during_saves_loses_nothing() {
             .expect("spawn child");
         let stdout = proc.stdout.take().expect("child stdout");
         let reader = std::thread::spawn(move || {
-            BufReader::new(stdout)
-                .lines()
-                .map_while(Result::ok)
-                .collect::<Vec<_>>()
+            BufReader::new(stdout).lines().map_while(Result::ok).collect::<Vec<_>>()
         });
         // A random moment: 20 to 400 ms after the start (xorshift, fixed seed).
         state ^= state << 13;
@@ -135,17 +110,14 @@ fn sigkill_during_saves_loses_nothing() {
         proc.kill().expect("SIGKILL");
         proc.wait().expect("reap child");
         let lines = reader.join().expect("reader thread");
-        let (d, a) = (
-            last_reported(&lines, "dataset").max(datasets),
-            last_reported(&lines, "analysis").max(analyses),
-        );
+        let (d, a) =
+            (last_reported(&lines, "dataset").max(datasets), last_reported(&lines, "analysis").max(analyses));
 
-        let (store, report) = Store::open(&root)
-            .unwrap_or_else(|e| panic!("kill {kill}: the store does not open: {e}"));
+        let (store, report) =
+            Store::open(&root).unwrap_or_else(|e| panic!("kill {kill}: the store does not open: {e}"));
         for line in &report.log {
             assert!(
-                line.starts_with("removed stray temporary file")
-                    || line.contains("no manifest refers to it"),
+                line.starts_with("removed stray temporary file") || line.contains("no manifest refers to it"),
                 "kill {kill}: only interrupted writes may be found, not damage: {line}"
             );
         }
@@ -158,12 +130,8 @@ fn sigkill_during_saves_loses_nothing() {
         );
         if version > 0 {
             let loaded = store.load("fault").expect("load latest");
-            let expected = import_bytes(
-                content(version).as_bytes(),
-                "fault.csv",
-                &ImportOptions::default(),
-            )
-            .expect("expected");
+            let expected = import_bytes(content(version).as_bytes(), "fault.csv", &ImportOptions::default())
+                .expect("expected");
             assert!(
                 same_frame(loaded.frame(), expected.frame()),
                 "kill {kill}: version {version} holds other values"
@@ -176,28 +144,18 @@ fn sigkill_during_saves_loses_nothing() {
         }
         match store.analysis(ANALYSIS_ID) {
             Ok(saved) => {
-                let n: u64 = saved
-                    .title
-                    .trim_start_matches("run ")
-                    .parse()
-                    .expect("run number");
-                assert!(
-                    n == a || n == a + 1,
-                    "kill {kill}: analysis at run {n}, child had committed {a}"
-                );
+                let n: u64 = saved.title.trim_start_matches("run ").parse().expect("run number");
+                assert!(n == a || n == a + 1, "kill {kill}: analysis at run {n}, child had committed {a}");
                 assert_eq!(saved.dataset_version, format!("fault@{n}"));
             }
             Err(_) => assert_eq!(a, 0, "kill {kill}: a committed analysis is missing"),
         }
         datasets = version;
-        analyses = store.analysis(ANALYSIS_ID).map_or(0, |s| {
-            s.title.trim_start_matches("run ").parse().unwrap_or(0)
-        });
+        analyses = store
+            .analysis(ANALYSIS_ID)
+            .map_or(0, |s| s.title.trim_start_matches("run ").parse().unwrap_or(0));
     }
-    assert!(
-        datasets >= 10,
-        "the child made progress: {datasets} versions"
-    );
+    assert!(datasets >= 10, "the child made progress: {datasets} versions");
     eprintln!(
         "fault test: {KILLS} kills, {datasets} versions, {interrupted_writes} interrupted writes cleaned up, {:.1} s",
         started.elapsed().as_secs_f64()

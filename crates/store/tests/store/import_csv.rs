@@ -2,8 +2,7 @@
 
 use wardcast_contract::dataset::ColumnType;
 use wardcast_store::{
-    DecimalChoice, Delimiter, Encoding, ImportOptions, Limits, import_bytes, import_file,
-    read_number,
+    DecimalChoice, Delimiter, Encoding, ImportOptions, Limits, import_bytes, import_file, read_number,
 };
 
 use crate::common::{decimals, fixture, import, integers, same_frame, texts};
@@ -17,10 +16,7 @@ fn check_refused(fixture_name: &str, options: &ImportOptions, expected: &str) {
 }
 
 fn with_limits(limits: Limits) -> ImportOptions {
-    ImportOptions {
-        limits,
-        ..ImportOptions::default()
-    }
+    ImportOptions { limits, ..ImportOptions::default() }
 }
 
 #[test]
@@ -34,19 +30,12 @@ fn malformed_files_are_refused_with_exact_messages() {
         ),
         (
             "ragged.csv",
-            ImportOptions {
-                delimiter: Some(Delimiter::Comma),
-                ..plain.clone()
-            },
+            ImportOptions { delimiter: Some(Delimiter::Comma), ..plain.clone() },
             "row 3 (line 3) has 2 fields but the header has 3; 2 rows in all have a different number of fields",
         ),
         ("empty.csv", plain.clone(), "the file is empty"),
         ("blank_lines_only.csv", plain.clone(), "the file is empty"),
-        (
-            "header_only.csv",
-            plain.clone(),
-            "the file has a header row but no data rows",
-        ),
+        ("header_only.csv", plain.clone(), "the file has a header row but no data rows"),
         (
             "latin1.csv",
             plain.clone(),
@@ -62,11 +51,7 @@ fn malformed_files_are_refused_with_exact_messages() {
             plain.clone(),
             "could not tell the field delimiter: none of comma, semicolon, tab or pipe gives the same number of fields on every line (with semicolon the header has 3 fields but line 2 has 1); choose the delimiter",
         ),
-        (
-            "open_quote.csv",
-            plain.clone(),
-            "a quoted field that starts on line 2 is never closed",
-        ),
+        ("open_quote.csv", plain.clone(), "a quoted field that starts on line 2 is never closed"),
         (
             "text_after_quote.csv",
             plain.clone(),
@@ -77,46 +62,26 @@ fn malformed_files_are_refused_with_exact_messages() {
             plain.clone(),
             "no field delimiter found: no line contains a comma, semicolon, tab or pipe outside quotes",
         ),
-        (
-            "blank_header.csv",
-            plain.clone(),
-            "column 2 has no name in the header row",
-        ),
-        (
-            "duplicate_header.csv",
-            plain.clone(),
-            "two columns are both named \"value\" (columns 2 and 3)",
-        ),
+        ("blank_header.csv", plain.clone(), "column 2 has no name in the header row"),
+        ("duplicate_header.csv", plain.clone(), "two columns are both named \"value\" (columns 2 and 3)"),
         (
             "bom.csv",
-            with_limits(Limits {
-                max_bytes: Some(10),
-                ..Limits::default()
-            }),
+            with_limits(Limits { max_bytes: Some(10), ..Limits::default() }),
             "the file is 24 bytes, more than the 10 bytes allowed; nothing was stored",
         ),
         (
             "types.csv",
-            with_limits(Limits {
-                max_columns: 2,
-                ..Limits::default()
-            }),
+            with_limits(Limits { max_columns: 2, ..Limits::default() }),
             "the table has 7 columns, more than the 2 allowed; nothing was stored",
         ),
         (
             "quoted.csv",
-            with_limits(Limits {
-                max_cell_bytes: 5,
-                ..Limits::default()
-            }),
+            with_limits(Limits { max_cell_bytes: 5, ..Limits::default() }),
             "row 2, column \"name\" holds 11 bytes, more than the 5 allowed in one cell; nothing was stored",
         ),
         (
             "bom.csv",
-            ImportOptions {
-                key: Some("nope".into()),
-                ..plain.clone()
-            },
+            ImportOptions { key: Some("nope".into()), ..plain.clone() },
             "there is no column named \"nope\"",
         ),
         (
@@ -131,10 +96,7 @@ fn malformed_files_are_refused_with_exact_messages() {
         (
             "text_in_numeric.csv",
             ImportOptions {
-                drop_rows: vec![wardcast_store::RowDrop {
-                    row: 3,
-                    reason: "   ".into(),
-                }],
+                drop_rows: vec![wardcast_store::RowDrop { row: 3, reason: "   ".into() }],
                 ..plain.clone()
             },
             "dropping row 3 needs a reason",
@@ -142,10 +104,7 @@ fn malformed_files_are_refused_with_exact_messages() {
         (
             "text_in_numeric.csv",
             ImportOptions {
-                drop_rows: vec![wardcast_store::RowDrop {
-                    row: 40,
-                    reason: "not there".into(),
-                }],
+                drop_rows: vec![wardcast_store::RowDrop { row: 40, reason: "not there".into() }],
                 ..plain.clone()
             },
             "row 40 cannot be dropped: it is not a data row (data rows are 2 to 7)",
@@ -169,11 +128,7 @@ fn in_memory_refusals_have_exact_messages() {
     }
     utf16.extend(0xD800u16.to_le_bytes());
     let cases: Vec<(Vec<u8>, ImportOptions, &str)> = vec![
-        (
-            xls,
-            plain.clone(),
-            "this is an old binary .xls workbook; save it as .xlsx or CSV and import that",
-        ),
+        (xls, plain.clone(), "this is an old binary .xls workbook; save it as .xlsx or CSV and import that"),
         (
             utf16,
             plain.clone(),
@@ -181,19 +136,13 @@ fn in_memory_refusals_have_exact_messages() {
         ),
         (
             b"a,b\n1,2\n".to_vec(),
-            with_limits(Limits {
-                max_bytes: Some(4),
-                ..Limits::default()
-            }),
+            with_limits(Limits { max_bytes: Some(4), ..Limits::default() }),
             "the file is 8 bytes, more than the 4 bytes allowed; nothing was stored",
         ),
         (Vec::new(), plain.clone(), "the file is empty"),
         (
             b"name,value\nA,1.5\nB,2.5\n".to_vec(),
-            ImportOptions {
-                types: [("value".to_owned(), ColumnType::Integer)].into(),
-                ..plain.clone()
-            },
+            ImportOptions { types: [("value".to_owned(), ColumnType::Integer)].into(), ..plain.clone() },
             "column \"value\" holds 2 values with a fractional part (row 2: 1.5); choose decimal instead of integer",
         ),
         (
@@ -218,58 +167,34 @@ fn in_memory_refusals_have_exact_messages() {
 fn encodings_are_read_or_transcoded_on_request() {
     let bom = import("bom.csv", &ImportOptions::default());
     assert_eq!(bom.report().source.encoding, "utf-8 with byte-order mark");
-    assert_eq!(
-        bom.report().columns[0].column,
-        "code",
-        "the byte-order mark is not part of the first name"
-    );
+    assert_eq!(bom.report().columns[0].column, "code", "the byte-order mark is not part of the first name");
     assert_eq!(integers(bom.frame(), "value"), vec![Some(1), Some(2)]);
 
-    let latin = import(
-        "latin1.csv",
-        &ImportOptions {
-            encoding: Encoding::Latin1,
-            ..ImportOptions::default()
-        },
-    );
+    let latin =
+        import("latin1.csv", &ImportOptions { encoding: Encoding::Latin1, ..ImportOptions::default() });
     assert_eq!(latin.report().source.encoding, "latin1");
-    assert_eq!(
-        texts(latin.frame(), "name"),
-        vec![Some("Fernhöhe".into()), Some("Mühlbach".into())]
-    );
+    assert_eq!(texts(latin.frame(), "name"), vec![Some("Fernhöhe".into()), Some("Mühlbach".into())]);
 
     let cp = import(
         "windows1252.csv",
-        &ImportOptions {
-            encoding: Encoding::Windows1252,
-            ..ImportOptions::default()
-        },
+        &ImportOptions { encoding: Encoding::Windows1252, ..ImportOptions::default() },
     );
     assert_eq!(cp.report().source.encoding, "windows-1252");
     assert_eq!(texts(cp.frame(), "label")[0].as_deref(), Some("€ budget"));
 
     let le = import("utf16le.csv", &ImportOptions::default());
     assert_eq!(le.report().source.encoding, "utf-16le");
-    assert_eq!(
-        texts(le.frame(), "name"),
-        vec![Some("Ærøby".into()), Some("Zeta".into())]
-    );
+    assert_eq!(texts(le.frame(), "name"), vec![Some("Ærøby".into()), Some("Zeta".into())]);
 
     let be = import("utf16be.csv", &ImportOptions::default());
     assert_eq!(be.report().source.encoding, "utf-16be");
     assert_eq!(be.report().source.delimiter.as_deref(), Some("semicolon"));
     assert_eq!(integers(be.frame(), "value"), vec![Some(1), Some(2)]);
 
-    assert_eq!(
-        Encoding::parse("Windows-1252").ok(),
-        Some(Encoding::Windows1252)
-    );
+    assert_eq!(Encoding::parse("Windows-1252").ok(), Some(Encoding::Windows1252));
     assert_eq!(Encoding::parse("iso-8859-1").ok(), Some(Encoding::Latin1));
     assert_eq!(
-        Encoding::parse("ebcdic")
-            .err()
-            .map(|e| e.to_string())
-            .as_deref(),
+        Encoding::parse("ebcdic").err().map(|e| e.to_string()).as_deref(),
         Some("\"ebcdic\" is not an encoding wardcast reads; use utf-8, windows-1252 or latin1")
     );
 }
@@ -286,17 +211,11 @@ fn dialects_and_quoting() {
             Some("plain".into()),
         ]
     );
-    assert_eq!(
-        integers(quoted.frame(), "value"),
-        vec![Some(1), Some(2), Some(3), Some(4)]
-    );
+    assert_eq!(integers(quoted.frame(), "value"), vec![Some(1), Some(2), Some(3), Some(4)]);
 
     let tab = import("tab.tsv", &ImportOptions::default());
     assert_eq!(tab.report().source.delimiter.as_deref(), Some("tab"));
-    assert_eq!(
-        decimals(tab.frame(), "share_pct"),
-        vec![Some(1.5), Some(2.5)]
-    );
+    assert_eq!(decimals(tab.frame(), "share_pct"), vec![Some(1.5), Some(2.5)]);
     let pipe = import("pipe.csv", &ImportOptions::default());
     assert_eq!(pipe.report().source.delimiter.as_deref(), Some("pipe"));
     let crlf = import("crlf.csv", &ImportOptions::default());
@@ -312,21 +231,12 @@ fn dialects_and_quoting() {
             .as_deref()
             .is_some_and(|n| n.starts_with("decimal comma: the delimiter is a semicolon"))
     );
-    assert_eq!(
-        decimals(comma.frame(), "rate"),
-        vec![Some(12.5), Some(7.25), Some(-0.5)]
-    );
+    assert_eq!(decimals(comma.frame(), "rate"), vec![Some(12.5), Some(7.25), Some(-0.5)]);
     let point = import(
         "decimal_comma.csv",
-        &ImportOptions {
-            decimal: DecimalChoice::Point,
-            ..ImportOptions::default()
-        },
+        &ImportOptions { decimal: DecimalChoice::Point, ..ImportOptions::default() },
     );
-    assert_eq!(
-        point.report().source.decimal_separator.as_deref(),
-        Some("point")
-    );
+    assert_eq!(point.report().source.decimal_separator.as_deref(), Some("point"));
     assert_eq!(point.report().columns[1].column_type, ColumnType::Text);
 }
 
@@ -371,11 +281,7 @@ fn numbers_are_read_strictly() {
             (state >> 20) % 1_000_000_000,
             w = 1 + (state >> 50) as usize % 9
         );
-        assert_eq!(
-            read_number(&text, false),
-            text.parse::<f64>().ok(),
-            "{text}"
-        );
+        assert_eq!(read_number(&text, false), text.parse::<f64>().ok(), "{text}");
     }
 }
 
@@ -383,22 +289,9 @@ fn numbers_are_read_strictly() {
 fn big_csv(stray_quote: bool) -> Vec<u8> {
     let mut out = String::from("district_code,name,residents,rate,note\n");
     for i in 0..110_000u32 {
-        let note = if i % 7 == 0 {
-            format!("\"multi\nline, {i}\"")
-        } else {
-            format!("n{i}")
-        };
-        let name = if stray_quote && i == 100 {
-            "Bob's 5\" pipe".to_owned()
-        } else {
-            format!("Area {i}")
-        };
-        out.push_str(&format!(
-            "D{i:06},{name},{},{}.{:02},{note}\n",
-            1000 + i % 977,
-            i % 50,
-            i % 100
-        ));
+        let note = if i % 7 == 0 { format!("\"multi\nline, {i}\"") } else { format!("n{i}") };
+        let name = if stray_quote && i == 100 { "Bob's 5\" pipe".to_owned() } else { format!("Area {i}") };
+        out.push_str(&format!("D{i:06},{name},{},{}.{:02},{note}\n", 1000 + i % 977, i % 50, i % 100));
     }
     out.into_bytes()
 }
@@ -408,31 +301,14 @@ fn parallel_reading_matches_sequential_reading() {
     for stray in [false, true] {
         let bytes = big_csv(stray);
         assert!(bytes.len() > 4 * 1024 * 1024);
-        let one = import_bytes(
-            &bytes,
-            "big.csv",
-            &ImportOptions {
-                threads: 1,
-                ..ImportOptions::default()
-            },
-        )
-        .expect("one thread");
-        let four = import_bytes(
-            &bytes,
-            "big.csv",
-            &ImportOptions {
-                threads: 4,
-                ..ImportOptions::default()
-            },
-        )
-        .expect("four threads");
+        let one = import_bytes(&bytes, "big.csv", &ImportOptions { threads: 1, ..ImportOptions::default() })
+            .expect("one thread");
+        let four = import_bytes(&bytes, "big.csv", &ImportOptions { threads: 4, ..ImportOptions::default() })
+            .expect("four threads");
         assert_eq!(one.report(), four.report());
         assert!(same_frame(one.frame(), four.frame()));
         assert_eq!(one.report().rows, 110_000);
-        assert_eq!(
-            texts(four.frame(), "note")[7].as_deref(),
-            Some("multi\nline, 7")
-        );
+        assert_eq!(texts(four.frame(), "note")[7].as_deref(), Some("multi\nline, 7"));
         assert_eq!(decimals(four.frame(), "rate")[109_999], Some(49.99));
     }
 }

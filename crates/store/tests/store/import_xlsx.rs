@@ -14,36 +14,21 @@ fn workbook() -> Vec<u8> {
     let mut wb = Workbook::new();
     let ws = wb.add_worksheet();
     ws.set_name("Districts").expect("name");
-    for (c, h) in [
-        "district_code",
-        "residents",
-        "assaults",
-        "doubled",
-        "surveyed",
-    ]
-    .iter()
-    .enumerate()
-    {
+    for (c, h) in ["district_code", "residents", "assaults", "doubled", "surveyed"].iter().enumerate() {
         ws.write_string(0, c as u16, *h).expect("header");
     }
     let date = Format::new().set_num_format("yyyy-mm-dd");
-    let rows = [
-        ("LK-01", 19730.0, 87.0),
-        ("LK-02", 8870.0, 78.0),
-        ("LK-03", 12080.0, 77.0),
-    ];
+    let rows = [("LK-01", 19730.0, 87.0), ("LK-02", 8870.0, 78.0), ("LK-03", 12080.0, 77.0)];
     for (i, (code, residents, assaults)) in rows.iter().enumerate() {
         let r = i as u32 + 1;
         ws.write_string(r, 0, *code).expect("code");
         ws.write_number(r, 1, *residents).expect("residents");
         ws.write_number(r, 2, *assaults).expect("assaults");
         // The saved result is what the importer reads; the formula is reported.
-        let formula =
-            Formula::new(format!("=C{}*2", r + 1)).set_result(format!("{}", assaults * 2.0));
+        let formula = Formula::new(format!("=C{}*2", r + 1)).set_result(format!("{}", assaults * 2.0));
         ws.write_formula(r, 3, formula).expect("formula");
         let day = ExcelDateTime::from_ymd(2025, 3, 10 + i as u8).expect("date");
-        ws.write_datetime_with_format(r, 4, &day, &date)
-            .expect("date");
+        ws.write_datetime_with_format(r, 4, &day, &date).expect("date");
     }
     let ws2 = wb.add_worksheet();
     ws2.set_name("Budgets").expect("name");
@@ -63,31 +48,14 @@ fn first_sheet_by_default_with_formulas_reported() {
     let r = staged.report();
     assert_eq!(r.source.format, "xlsx");
     assert_eq!(r.source.sheet.as_deref(), Some("Districts"));
-    assert_eq!(
-        r.source.sheets,
-        vec!["Districts".to_owned(), "Budgets".to_owned()]
-    );
+    assert_eq!(r.source.sheets, vec!["Districts".to_owned(), "Budgets".to_owned()]);
     assert_eq!(
         texts(staged.frame(), "district_code"),
-        vec![
-            Some("LK-01".into()),
-            Some("LK-02".into()),
-            Some("LK-03".into())
-        ]
+        vec![Some("LK-01".into()), Some("LK-02".into()), Some("LK-03".into())]
     );
-    assert_eq!(
-        integers(staged.frame(), "residents"),
-        vec![Some(19730), Some(8870), Some(12080)]
-    );
-    assert_eq!(
-        integers(staged.frame(), "doubled"),
-        vec![Some(174), Some(156), Some(154)]
-    );
-    let f = r
-        .problems
-        .iter()
-        .find(|p| p.kind == ProblemKind::Formula)
-        .expect("formula problem");
+    assert_eq!(integers(staged.frame(), "residents"), vec![Some(19730), Some(8870), Some(12080)]);
+    assert_eq!(integers(staged.frame(), "doubled"), vec![Some(174), Some(156), Some(154)]);
+    let f = r.problems.iter().find(|p| p.kind == ProblemKind::Formula).expect("formula problem");
     assert_eq!(f.column, "doubled");
     assert_eq!(
         f.message,
@@ -96,54 +64,31 @@ fn first_sheet_by_default_with_formulas_reported() {
     assert_eq!(
         f.examples,
         vec![
-            ProblemCell {
-                row: 2,
-                value: "=C2*2".into()
-            },
-            ProblemCell {
-                row: 3,
-                value: "=C3*2".into()
-            },
-            ProblemCell {
-                row: 4,
-                value: "=C4*2".into()
-            },
+            ProblemCell { row: 2, value: "=C2*2".into() },
+            ProblemCell { row: 3, value: "=C3*2".into() },
+            ProblemCell { row: 4, value: "=C4*2".into() },
         ]
     );
     assert!(!f.blocks_saving && r.can_save);
     // Dates are kept as text, with a note.
-    assert_eq!(
-        texts(staged.frame(), "surveyed")[0].as_deref(),
-        Some("2025-03-10")
+    assert_eq!(texts(staged.frame(), "surveyed")[0].as_deref(), Some("2025-03-10"));
+    assert!(
+        r.notes
+            .contains(&"column \"surveyed\" holds dates; they are kept as text (year-month-day)".to_owned())
     );
-    assert!(r.notes.contains(
-        &"column \"surveyed\" holds dates; they are kept as text (year-month-day)".to_owned()
-    ));
 }
 
 #[test]
 fn a_sheet_can_be_chosen() {
     let bytes = workbook();
-    let options = ImportOptions {
-        sheet: Some("Budgets".into()),
-        ..ImportOptions::default()
-    };
+    let options = ImportOptions { sheet: Some("Budgets".into()), ..ImportOptions::default() };
     let staged = import_bytes(&bytes, "larkmoor.xlsx", &options).expect("import");
     assert_eq!(staged.report().source.sheet.as_deref(), Some("Budgets"));
     assert_eq!(staged.report().columns[1].column_type, ColumnType::Decimal);
+    assert_eq!(decimals(staged.frame(), "programme_budget"), vec![Some(115_850.0), Some(69_150.5)]);
+    let missing = ImportOptions { sheet: Some("Nope".into()), ..ImportOptions::default() };
     assert_eq!(
-        decimals(staged.frame(), "programme_budget"),
-        vec![Some(115_850.0), Some(69_150.5)]
-    );
-    let missing = ImportOptions {
-        sheet: Some("Nope".into()),
-        ..ImportOptions::default()
-    };
-    assert_eq!(
-        import_bytes(&bytes, "larkmoor.xlsx", &missing)
-            .err()
-            .map(|e| e.to_string())
-            .as_deref(),
+        import_bytes(&bytes, "larkmoor.xlsx", &missing).err().map(|e| e.to_string()).as_deref(),
         Some("the workbook has no sheet named \"Nope\"; its sheets are: Districts, Budgets")
     );
 }
@@ -154,10 +99,7 @@ fn damaged_workbooks_are_refused() {
     // Keep the zip signature but cut the container short: no central directory.
     bytes.truncate(200);
     assert_eq!(
-        import_bytes(&bytes, "cut.xlsx", &ImportOptions::default())
-            .err()
-            .map(|e| e.to_string())
-            .as_deref(),
+        import_bytes(&bytes, "cut.xlsx", &ImportOptions::default()).err().map(|e| e.to_string()).as_deref(),
         Some("the workbook could not be read: the zip container has no central directory")
     );
 }
@@ -240,18 +182,12 @@ fn zero_deflate(repeats: u64) -> Vec<u8> {
 fn crc32_of_zeros(n: u64) -> u32 {
     fn step(mut c: u32) -> u32 {
         for _ in 0..8 {
-            c = if c & 1 == 1 {
-                (c >> 1) ^ 0xEDB8_8320
-            } else {
-                c >> 1
-            };
+            c = if c & 1 == 1 { (c >> 1) ^ 0xEDB8_8320 } else { c >> 1 };
         }
         c
     }
     fn apply(m: &[u32; 32], v: u32) -> u32 {
-        (0..32)
-            .filter(|i| v >> i & 1 == 1)
-            .fold(0, |acc, i| acc ^ m[i])
+        (0..32).filter(|i| v >> i & 1 == 1).fold(0, |acc, i| acc ^ m[i])
     }
     fn mul(a: &[u32; 32], b: &[u32; 32]) -> [u32; 32] {
         std::array::from_fn(|i| apply(a, b[i]))
@@ -273,18 +209,11 @@ fn crc32_of_zeros(n: u64) -> u32 {
 fn zip_with_zero_entry(name: &str, repeats: u64) -> Vec<u8> {
     let data = zero_deflate(repeats);
     let size = 1 + 258 * repeats;
-    assert!(
-        size < u64::from(u32::MAX),
-        "keeps to the classic (non-zip64) format"
-    );
+    assert!(size < u64::from(u32::MAX), "keeps to the classic (non-zip64) format");
     let crc = crc32_of_zeros(size);
     let mut out = Vec::new();
     let header = |out: &mut Vec<u8>, central: bool| {
-        out.extend(if central {
-            [0x50, 0x4b, 0x01, 0x02]
-        } else {
-            [0x50, 0x4b, 0x03, 0x04]
-        });
+        out.extend(if central { [0x50, 0x4b, 0x01, 0x02] } else { [0x50, 0x4b, 0x03, 0x04] });
         if central {
             out.extend(20u16.to_le_bytes()); // made by
         }
@@ -334,10 +263,7 @@ fn bomb_workbook(repeats: u64) -> Vec<u8> {
         writer.raw_copy_file(file).expect("copy");
     }
     writer
-        .raw_copy_file_rename(
-            bomb_zip.by_index_raw(0).expect("bomb entry"),
-            "xl/worksheets/sheet1.xml",
-        )
+        .raw_copy_file_rename(bomb_zip.by_index_raw(0).expect("bomb entry"), "xl/worksheets/sheet1.xml")
         .expect("copy bomb");
     writer.finish().expect("finish").into_inner()
 }
@@ -348,11 +274,7 @@ fn hand_made_deflate_stream_inflates_to_zeros() {
     let bytes = zip_with_zero_entry("small", 1000);
     let mut archive = zip::ZipArchive::new(Cursor::new(bytes)).expect("zip");
     let mut out = Vec::new();
-    archive
-        .by_index(0)
-        .expect("entry")
-        .read_to_end(&mut out)
-        .expect("inflate and CRC check");
+    archive.by_index(0).expect("entry").read_to_end(&mut out).expect("inflate and CRC check");
     assert_eq!(out.len(), 1 + 258 * 1000);
     assert!(out.iter().all(|&b| b == 0));
     // Known value: the CRC-32 of one zero byte is 0xD202EF8D (from memory; Python's
@@ -363,27 +285,17 @@ fn hand_made_deflate_stream_inflates_to_zeros() {
 #[test]
 fn zip_bomb_is_refused_before_decompressing() {
     let bytes = bomb_workbook(4_400_000);
-    assert!(
-        bytes.len() < 1_300_000,
-        "the workbook is about 1 MB: {} bytes",
-        bytes.len()
-    );
+    assert!(bytes.len() < 1_300_000, "the workbook is about 1 MB: {} bytes", bytes.len());
     let declared: u64 = {
         let mut a = zip::ZipArchive::new(Cursor::new(bytes.clone())).expect("zip");
-        (0..a.len())
-            .map(|i| a.by_index_raw(i).map(|f| f.size()).unwrap_or(0))
-            .sum()
+        (0..a.len()).map(|i| a.by_index_raw(i).map(|f| f.size()).unwrap_or(0)).sum()
     };
     assert!(declared > 1_000_000_000, "it expands past 1 GB: {declared}");
     let start = std::time::Instant::now();
-    let err = import_bytes(&bytes, "bomb.xlsx", &ImportOptions::default())
-        .err()
-        .map(|e| e.to_string());
+    let err = import_bytes(&bytes, "bomb.xlsx", &ImportOptions::default()).err().map(|e| e.to_string());
     assert_eq!(
         err.as_deref(),
-        Some(
-            "the workbook would unpack to 1.1 GB, more than the 512.0 MB allowed; it was not opened"
-        )
+        Some("the workbook would unpack to 1.1 GB, more than the 512.0 MB allowed; it was not opened")
     );
     // Refused from the central directory alone: far quicker than inflating 1 GB.
     assert!(start.elapsed().as_secs() < 5);
@@ -400,9 +312,7 @@ fn zip_ratio_and_entry_limits() {
     };
     let ratio = size / packed;
     assert!(ratio > 1000, "{ratio}");
-    let err = import_bytes(&bytes, "bomb.xlsx", &ImportOptions::default())
-        .err()
-        .map(|e| e.to_string());
+    let err = import_bytes(&bytes, "bomb.xlsx", &ImportOptions::default()).err().map(|e| e.to_string());
     assert_eq!(
         err,
         Some(format!(
@@ -411,26 +321,11 @@ fn zip_ratio_and_entry_limits() {
     );
     // Too many entries, with a low limit on an ordinary workbook.
     let ordinary = workbook();
-    let entries = zip::ZipArchive::new(Cursor::new(ordinary.clone()))
-        .expect("zip")
-        .len();
-    let limits = Limits {
-        zip: ZipLimits {
-            max_entries: 3,
-            ..ZipLimits::default()
-        },
-        ..Limits::default()
-    };
-    let err = import_bytes(
-        &ordinary,
-        "w.xlsx",
-        &ImportOptions {
-            limits,
-            ..ImportOptions::default()
-        },
-    )
-    .err()
-    .map(|e| e.to_string());
+    let entries = zip::ZipArchive::new(Cursor::new(ordinary.clone())).expect("zip").len();
+    let limits = Limits { zip: ZipLimits { max_entries: 3, ..ZipLimits::default() }, ..Limits::default() };
+    let err = import_bytes(&ordinary, "w.xlsx", &ImportOptions { limits, ..ImportOptions::default() })
+        .err()
+        .map(|e| e.to_string());
     assert_eq!(
         err,
         Some(format!(
@@ -442,16 +337,9 @@ fn zip_ratio_and_entry_limits() {
 #[test]
 fn a_plain_zip_that_is_not_a_workbook_is_refused() {
     let mut w = zip::ZipWriter::new(Cursor::new(Vec::new()));
-    w.start_file("notes.txt", zip::write::SimpleFileOptions::default())
-        .expect("start");
+    w.start_file("notes.txt", zip::write::SimpleFileOptions::default()).expect("start");
     w.write_all(b"hello").expect("write");
     let bytes = w.finish().expect("finish").into_inner();
-    let err = import_bytes(&bytes, "notes.zip", &ImportOptions::default())
-        .err()
-        .map(|e| e.to_string());
-    assert!(
-        err.as_deref()
-            .is_some_and(|e| e.starts_with("the workbook could not be read: ")),
-        "{err:?}"
-    );
+    let err = import_bytes(&bytes, "notes.zip", &ImportOptions::default()).err().map(|e| e.to_string());
+    assert!(err.as_deref().is_some_and(|e| e.starts_with("the workbook could not be read: ")), "{err:?}");
 }

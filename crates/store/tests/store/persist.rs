@@ -19,16 +19,10 @@ fn analysis(dataset_version: &str) -> SavedAnalysis {
         question: "Which districts should get the after-school expansion?".into(),
         author: "Budget office".into(),
         model_spec: ModelSpec {
-            exclusions: vec![ExclusionSpec {
-                key: "D2".into(),
-                reason: "boundary change mid-year".into(),
-            }],
+            exclusions: vec![ExclusionSpec { key: "D2".into(), reason: "boundary change mid-year".into() }],
             ..ModelSpec::new("unemployment_pct", ["residents"])
         },
-        cv: CvSettings {
-            folds: 5,
-            seeds: vec![20_260_101],
-        },
+        cv: CvSettings { folds: 5, seeds: vec![20_260_101] },
         scenario: json!({"unemployment_pct": -1.0}),
         allocation: json!({"budget": 250_000}),
         created_unix: 0,
@@ -51,17 +45,12 @@ fn save_and_load_round_trip() {
         &ImportOptions {
             drop_rows: [4, 6, 7, 8]
                 .iter()
-                .map(|&row| wardcast_store::RowDrop {
-                    row,
-                    reason: "repeat".into(),
-                })
+                .map(|&row| wardcast_store::RowDrop { row, reason: "repeat".into() })
                 .collect(),
             ..ImportOptions::default()
         },
     );
-    let m2 = store
-        .save_import("Test Districts", &staged2)
-        .expect("save v2");
+    let m2 = store.save_import("Test Districts", &staged2).expect("save v2");
     assert_eq!(m2.version, 2);
     assert_eq!(m2.dropped_rows.len(), 4);
     drop(store);
@@ -78,19 +67,11 @@ fn save_and_load_round_trip() {
     assert_eq!(listing.len(), 1);
     assert_eq!(listing[0].versions, vec![1, 2]);
     assert_eq!(
-        store
-            .load("test-districts@7")
-            .err()
-            .map(|e| e.to_string())
-            .as_deref(),
+        store.load("test-districts@7").err().map(|e| e.to_string()).as_deref(),
         Some("the table \"test-districts\" has no version 7")
     );
     assert_eq!(
-        store
-            .load("nothing")
-            .err()
-            .map(|e| e.to_string())
-            .as_deref(),
+        store.load("nothing").err().map(|e| e.to_string()).as_deref(),
         Some("no stored table is called \"nothing\"")
     );
 }
@@ -99,10 +80,7 @@ fn save_and_load_round_trip() {
 fn a_refused_import_stores_nothing() {
     let (dir, mut store) = temp_store();
     let staged = import("duplicate_keys.csv", &ImportOptions::default());
-    let err = store
-        .save_import("dups", &staged)
-        .err()
-        .map(|e| e.to_string());
+    let err = store.save_import("dups", &staged).err().map(|e| e.to_string());
     assert_eq!(
         err.as_deref(),
         Some(
@@ -116,11 +94,7 @@ fn a_refused_import_stores_nothing() {
 
 fn files(dir: &Path) -> Vec<String> {
     let mut v: Vec<String> = std::fs::read_dir(dir)
-        .map(|rd| {
-            rd.filter_map(|e| e.ok())
-                .map(|e| e.file_name().to_string_lossy().into_owned())
-                .collect()
-        })
+        .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.file_name().to_string_lossy().into_owned()).collect())
         .unwrap_or_default();
     v.sort();
     v
@@ -150,44 +124,29 @@ fn start_up_removes_temp_files_and_quarantines_damage() {
     assert_eq!(report.removed.len(), 1);
     assert_eq!(report.quarantined.len(), 4, "{:?}", report.log);
     let log = report.log.join("\n");
-    assert!(log.contains("removed stray temporary file datasets/a/.tmp-v000003.arrow.1.0 (left by an interrupted write)"), "{log}");
-    assert!(log.contains("quarantined datasets/a/v000002.arrow: its checksum does not match the manifest; moved to quarantine/"), "{log}");
     assert!(
-        log.contains("quarantined datasets/a/v000002.json: its data file was damaged"),
+        log.contains(
+            "removed stray temporary file datasets/a/.tmp-v000003.arrow.1.0 (left by an interrupted write)"
+        ),
         "{log}"
     );
+    assert!(log.contains("quarantined datasets/a/v000002.arrow: its checksum does not match the manifest; moved to quarantine/"), "{log}");
+    assert!(log.contains("quarantined datasets/a/v000002.json: its data file was damaged"), "{log}");
     assert!(
         log.contains("quarantined datasets/a/v000009.arrow: no manifest refers to it (a save was interrupted before its manifest was written)"),
         "{log}"
     );
-    assert!(
-        log.contains("quarantined analyses/broken.json: the analysis cannot be read"),
-        "{log}"
-    );
+    assert!(log.contains("quarantined analyses/broken.json: the analysis cannot be read"), "{log}");
     // The rest loads.
-    assert_eq!(
-        store
-            .versions("a")
-            .expect("a")
-            .iter()
-            .map(|m| m.version)
-            .collect::<Vec<_>>(),
-        vec![1]
-    );
+    assert_eq!(store.versions("a").expect("a").iter().map(|m| m.version).collect::<Vec<_>>(), vec![1]);
     assert!(store.load("b").is_ok());
-    assert_eq!(
-        files(&a),
-        vec!["v000001.arrow".to_owned(), "v000001.json".to_owned()]
-    );
+    assert_eq!(files(&a), vec!["v000001.arrow".to_owned(), "v000001.json".to_owned()]);
     assert_eq!(files(&root.join("quarantine")).len(), 4);
     // The next save takes the next free number after the loaded versions.
     drop(store);
     let (mut store, report) = Store::open(&root).expect("third open");
     assert!(report.log.is_empty(), "{:?}", report.log);
-    assert_eq!(
-        store.save_import("a", &staged).expect("v2 again").version,
-        2
-    );
+    assert_eq!(store.save_import("a", &staged).expect("v2 again").version, 2);
 }
 
 #[test]
@@ -201,9 +160,7 @@ fn saved_analyses_persist_export_and_import() {
         },
     );
     store.save_import("districts", &staged).expect("save");
-    let saved = store
-        .save_analysis(analysis("districts@1"))
-        .expect("save analysis");
+    let saved = store.save_analysis(analysis("districts@1")).expect("save analysis");
     assert_eq!(saved.id.len(), 16);
     assert!(SavedAnalysis::is_valid_id(&saved.id));
     assert!(saved.created_unix > 0);
@@ -240,39 +197,24 @@ fn saved_analyses_persist_export_and_import() {
     other["schema_version"] = json!("wardcast.v0");
     std::fs::write(&export, other.to_string()).expect("write");
     assert_eq!(
-        store
-            .import_analysis(&export)
-            .err()
-            .map(|e| e.to_string())
-            .as_deref(),
+        store.import_analysis(&export).err().map(|e| e.to_string()).as_deref(),
         Some("this file uses schema wardcast.v0, but this version of wardcast reads wardcast.v1")
     );
     let mut bad = analysis("districts@1");
     bad.cv.folds = 1;
     assert_eq!(
-        store
-            .save_analysis(bad)
-            .err()
-            .map(|e| e.to_string())
-            .as_deref(),
+        store.save_analysis(bad).err().map(|e| e.to_string()).as_deref(),
         Some("the analysis cannot be saved: cross-validation needs at least 2 folds and one seed")
     );
     let mut bad = analysis("districts@1");
     bad.model_spec.exclusions[0].reason.clear();
     assert_eq!(
-        store
-            .save_analysis(bad)
-            .err()
-            .map(|e| e.to_string())
-            .as_deref(),
+        store.save_analysis(bad).err().map(|e| e.to_string()).as_deref(),
         Some(
             "the analysis cannot be saved: its model spec is invalid (exclusions: the exclusion of \"D2\" needs a reason)"
         )
     );
-    let missing = store
-        .save_analysis(analysis("nowhere@1"))
-        .err()
-        .map(|e| e.to_string());
+    let missing = store.save_analysis(analysis("nowhere@1")).err().map(|e| e.to_string());
     assert_eq!(
         missing.as_deref(),
         Some(
@@ -286,17 +228,10 @@ fn saved_analyses_persist_export_and_import() {
 #[test]
 fn a_table_without_problems_saves_from_memory() {
     let (_dir, mut store) = temp_store();
-    let staged = import_bytes(
-        b"code;value\nA;1,5\nB;2\n",
-        "eu.csv",
-        &ImportOptions::default(),
-    )
-    .expect("import");
+    let staged =
+        import_bytes(b"code;value\nA;1,5\nB;2\n", "eu.csv", &ImportOptions::default()).expect("import");
     let m = store.save_import("eu", &staged).expect("save");
     let loaded = store.load(&m.version_id).expect("load");
     assert!(same_frame(loaded.frame(), staged.frame()));
-    assert_eq!(
-        loaded.keys().expect("keys"),
-        vec!["A".to_owned(), "B".to_owned()]
-    );
+    assert_eq!(loaded.keys().expect("keys"), vec!["A".to_owned(), "B".to_owned()]);
 }

@@ -62,19 +62,8 @@ fn mutated_csv_files_never_panic() {
             for _ in 0..=rng.below(4) {
                 mutate(&mut bytes, &mut rng);
             }
-            let encoding = if round % 5 == 0 {
-                Encoding::Latin1
-            } else {
-                Encoding::Auto
-            };
-            match import_bytes(
-                &bytes,
-                name,
-                &ImportOptions {
-                    encoding,
-                    ..ImportOptions::default()
-                },
-            ) {
+            let encoding = if round % 5 == 0 { Encoding::Latin1 } else { Encoding::Auto };
+            match import_bytes(&bytes, name, &ImportOptions { encoding, ..ImportOptions::default() }) {
                 Ok(staged) => {
                     accepted += 1;
                     assert_eq!(staged.frame().height(), staged.report().rows);
@@ -88,10 +77,7 @@ fn mutated_csv_files_never_panic() {
             }
         }
     }
-    assert!(
-        accepted > 100 && refused > 100,
-        "accepted {accepted}, refused {refused}"
-    );
+    assert!(accepted > 100 && refused > 100, "accepted {accepted}, refused {refused}");
 }
 
 #[test]
@@ -99,16 +85,7 @@ fn mutated_workbooks_never_panic() {
     let mut wb = rust_xlsxwriter::Workbook::new();
     let ws = wb.add_worksheet();
     for r in 0..30u32 {
-        ws.write_string(
-            r,
-            0,
-            if r == 0 {
-                "code".to_owned()
-            } else {
-                format!("A{r}")
-            },
-        )
-        .expect("cell");
+        ws.write_string(r, 0, if r == 0 { "code".to_owned() } else { format!("A{r}") }).expect("cell");
         if r == 0 {
             ws.write_string(0, 1, "value").expect("cell");
         } else {

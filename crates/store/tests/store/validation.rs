@@ -11,11 +11,7 @@ use wardcast_store::{Draft, ImportOptions, RowDrop, import_bytes};
 use crate::common::{decimals, import, texts};
 
 fn column<'a>(report: &'a ImportReport, name: &str) -> &'a ColumnSummary {
-    report
-        .columns
-        .iter()
-        .find(|c| c.column == name)
-        .unwrap_or_else(|| panic!("no column {name}"))
+    report.columns.iter().find(|c| c.column == name).unwrap_or_else(|| panic!("no column {name}"))
 }
 
 fn problem(report: &ImportReport, kind: ProblemKind, col: &str) -> Problem {
@@ -28,41 +24,22 @@ fn problem(report: &ImportReport, kind: ProblemKind, col: &str) -> Problem {
 }
 
 fn cells(list: &[(usize, &str)]) -> Vec<ProblemCell> {
-    list.iter()
-        .map(|&(row, v)| ProblemCell {
-            row,
-            value: v.to_owned(),
-        })
-        .collect()
+    list.iter().map(|&(row, v)| ProblemCell { row, value: v.to_owned() }).collect()
 }
 
 /// Expected summary of one column: (name, type, role, count, missing, min, max, mean, median).
-type Expected<'a> = (
-    &'a str,
-    ColumnType,
-    ColumnRole,
-    usize,
-    usize,
-    Option<f64>,
-    Option<f64>,
-    Option<f64>,
-    Option<f64>,
-);
+type Expected<'a> =
+    (&'a str, ColumnType, ColumnRole, usize, usize, Option<f64>, Option<f64>, Option<f64>, Option<f64>);
 
 fn check_columns(report: &ImportReport, expected: &[Expected<'_>]) {
     for &(name, ty, role, count, missing, min, max, mean, median) in expected {
         let c = column(report, name);
-        assert_eq!(
-            (c.column_type, c.role, c.count, c.missing),
-            (ty, role, count, missing),
-            "{name}"
-        );
+        assert_eq!((c.column_type, c.role, c.count, c.missing), (ty, role, count, missing), "{name}");
         assert_eq!((c.min, c.max, c.median), (min, max, median), "{name}");
         match (c.mean, mean) {
-            (Some(a), Some(b)) => assert!(
-                (a - b).abs() <= 1e-9 * b.abs().max(1.0),
-                "{name}: mean {a} vs {b}"
-            ),
+            (Some(a), Some(b)) => {
+                assert!((a - b).abs() <= 1e-9 * b.abs().max(1.0), "{name}: mean {a} vs {b}")
+            }
             (a, b) => assert_eq!(a, b, "{name}"),
         }
     }
@@ -78,28 +55,8 @@ fn types_roles_and_statistics_are_inferred() {
     check_columns(
         r,
         &[
-            (
-                "district_code",
-                ColumnType::Text,
-                ColumnRole::Key,
-                3,
-                0,
-                None,
-                None,
-                None,
-                None,
-            ),
-            (
-                "zone_code",
-                ColumnType::Text,
-                ColumnRole::Group,
-                3,
-                0,
-                None,
-                None,
-                None,
-                None,
-            ),
+            ("district_code", ColumnType::Text, ColumnRole::Key, 3, 0, None, None, None, None),
+            ("zone_code", ColumnType::Text, ColumnRole::Group, 3, 0, None, None, None, None),
             (
                 "incidents",
                 ColumnType::Integer,
@@ -122,17 +79,7 @@ fn types_roles_and_statistics_are_inferred() {
                 Some((52100.5 + 21500.0 + 53400.25) / 3.0),
                 Some(52100.5),
             ),
-            (
-                "district_type",
-                ColumnType::Text,
-                ColumnRole::Group,
-                3,
-                0,
-                None,
-                None,
-                None,
-                None,
-            ),
+            ("district_type", ColumnType::Text, ColumnRole::Group, 3, 0, None, None, None, None),
             (
                 "constant",
                 ColumnType::Integer,
@@ -144,38 +91,16 @@ fn types_roles_and_statistics_are_inferred() {
                 Some(1.0),
                 Some(1.0),
             ),
-            (
-                "empty",
-                ColumnType::Text,
-                ColumnRole::Group,
-                0,
-                3,
-                None,
-                None,
-                None,
-                None,
-            ),
+            ("empty", ColumnType::Text, ColumnRole::Group, 0, 3, None, None, None, None),
         ],
     );
-    assert_eq!(
-        column(r, "zone_code").type_note,
-        "whole numbers with leading zeros, kept as text codes"
-    );
+    assert_eq!(column(r, "zone_code").type_note, "whole numbers with leading zeros, kept as text codes");
     assert_eq!(column(r, "district_type").distinct, Some(2));
-    assert_eq!(
-        texts(staged.frame(), "zone_code")[0].as_deref(),
-        Some("007")
-    );
+    assert_eq!(texts(staged.frame(), "zone_code")[0].as_deref(), Some("007"));
     let constant = problem(r, ProblemKind::ConstantColumn, "constant");
-    assert_eq!(
-        constant.message,
-        "column \"constant\" holds the same value (1) on every row that has one"
-    );
+    assert_eq!(constant.message, "column \"constant\" holds the same value (1) on every row that has one");
     assert!(!constant.blocks_saving);
-    assert_eq!(
-        problem(r, ProblemKind::EmptyColumn, "empty").message,
-        "column \"empty\" has no values"
-    );
+    assert_eq!(problem(r, ProblemKind::EmptyColumn, "empty").message, "column \"empty\" has no values");
     assert!(r.can_save);
 }
 
@@ -185,26 +110,15 @@ fn text_in_numeric_columns_blocks_saving_until_resolved() {
     let r = staged.report();
     let c = column(r, "unemployment_pct");
     assert_eq!(c.column_type, ColumnType::Decimal);
-    assert_eq!(
-        c.type_note,
-        "4 of 6 values are numbers; the other 2 are listed as problems"
-    );
+    assert_eq!(c.type_note, "4 of 6 values are numbers; the other 2 are listed as problems");
     let p = problem(r, ProblemKind::TextInNumeric, "unemployment_pct");
-    assert_eq!(
-        p.message,
-        "column \"unemployment_pct\" has 2 cells that are not numbers"
-    );
+    assert_eq!(p.message, "column \"unemployment_pct\" has 2 cells that are not numbers");
     assert_eq!(p.total, 2);
     assert_eq!(p.examples, cells(&[(3, "n/a"), (5, "12%")]));
     assert!(p.blocks_saving && !r.can_save);
     assert_eq!(
-        Draft::from_import(&staged)
-            .err()
-            .map(|e| e.to_string())
-            .as_deref(),
-        Some(
-            "the table was not saved: column \"unemployment_pct\" has 2 cells that are not numbers"
-        )
+        Draft::from_import(&staged).err().map(|e| e.to_string()).as_deref(),
+        Some("the table was not saved: column \"unemployment_pct\" has 2 cells that are not numbers")
     );
 
     // Choice 1: read such cells as missing, explicitly.
@@ -232,10 +146,7 @@ fn text_in_numeric_columns_blocks_saving_until_resolved() {
     );
     assert!(as_text.can_save());
     let c = column(as_text.report(), "unemployment_pct");
-    assert_eq!(
-        (c.column_type, c.inferred_type),
-        (ColumnType::Text, ColumnType::Decimal)
-    );
+    assert_eq!((c.column_type, c.inferred_type), (ColumnType::Text, ColumnType::Decimal));
     assert_eq!(c.type_note, "text (chosen; the values suggested decimal)");
 
     // Choice 3: drop the rows, each with a reason that is recorded.
@@ -243,14 +154,8 @@ fn text_in_numeric_columns_blocks_saving_until_resolved() {
         "text_in_numeric.csv",
         &ImportOptions {
             drop_rows: vec![
-                RowDrop {
-                    row: 3,
-                    reason: "unemployment not published".into(),
-                },
-                RowDrop {
-                    row: 5,
-                    reason: "percent sign typo; to be corrected at source".into(),
-                },
+                RowDrop { row: 3, reason: "unemployment not published".into() },
+                RowDrop { row: 5, reason: "percent sign typo; to be corrected at source".into() },
             ],
             ..ImportOptions::default()
         },
@@ -258,19 +163,11 @@ fn text_in_numeric_columns_blocks_saving_until_resolved() {
     assert!(dropped.can_save());
     assert_eq!(dropped.report().rows, 4);
     let d = &dropped.report().dropped_rows;
-    assert_eq!(
-        (d[0].row, d[0].key.as_str(), d[0].reason.as_str()),
-        (3, "D2", "unemployment not published")
-    );
+    assert_eq!((d[0].row, d[0].key.as_str(), d[0].reason.as_str()), (3, "D2", "unemployment not published"));
     assert_eq!((d[1].row, d[1].key.as_str()), (5, "D4"));
     assert_eq!(
         texts(dropped.frame(), "district_code"),
-        vec![
-            Some("D1".into()),
-            Some("D3".into()),
-            Some("D5".into()),
-            Some("D6".into())
-        ]
+        vec![Some("D1".into()), Some("D3".into()), Some("D5".into()), Some("D6".into())]
     );
 }
 
@@ -284,19 +181,10 @@ fn duplicate_and_blank_keys_are_listed_with_rows() {
         "\"district_code\" was taken as the key because of its name; choose another if that is wrong"
     );
     let dup = problem(r, ProblemKind::DuplicateKey, "district_code");
-    assert_eq!(
-        dup.message,
-        "2 keys appear in column \"district_code\" on more than one row (5 rows)"
-    );
-    assert_eq!(
-        dup.examples,
-        cells(&[(2, "D1"), (3, "D2"), (4, "D1"), (7, "D2"), (8, "D2")])
-    );
+    assert_eq!(dup.message, "2 keys appear in column \"district_code\" on more than one row (5 rows)");
+    assert_eq!(dup.examples, cells(&[(2, "D1"), (3, "D2"), (4, "D1"), (7, "D2"), (8, "D2")]));
     let blank = problem(r, ProblemKind::BlankKey, "district_code");
-    assert_eq!(
-        blank.message,
-        "1 row has no key in column \"district_code\""
-    );
+    assert_eq!(blank.message, "1 row has no key in column \"district_code\"");
     assert_eq!(blank.examples, cells(&[(6, "")]));
     assert!(!r.can_save);
     assert_eq!(
@@ -311,10 +199,7 @@ fn duplicate_and_blank_keys_are_listed_with_rows() {
         &ImportOptions {
             drop_rows: [4, 6, 7, 8]
                 .iter()
-                .map(|&row| RowDrop {
-                    row,
-                    reason: "repeat of an earlier row".into(),
-                })
+                .map(|&row| RowDrop { row, reason: "repeat of an earlier row".into() })
                 .collect(),
             ..ImportOptions::default()
         },
@@ -330,17 +215,11 @@ fn negative_counts_and_populations_are_problems() {
     assert_eq!(column(r, "assaults").role, ColumnRole::Count);
     assert_eq!(column(r, "residents").role, ColumnRole::Population);
     let a = problem(r, ProblemKind::NegativeCount, "assaults");
-    assert_eq!(
-        a.message,
-        "column \"assaults\" is a count but has 1 negative value"
-    );
+    assert_eq!(a.message, "column \"assaults\" is a count but has 1 negative value");
     assert_eq!(a.examples, cells(&[(3, "-3")]));
     let p = problem(r, ProblemKind::NegativeCount, "residents");
     assert_eq!(p.examples, cells(&[(4, "-1500")]));
-    assert!(
-        !r.problems.iter().any(|p| p.column == "change_pct"),
-        "indicators may be negative"
-    );
+    assert!(!r.problems.iter().any(|p| p.column == "change_pct"), "indicators may be negative");
     assert!(!r.can_save);
     // Declaring the column something else removes the check.
     let relabelled = import(
@@ -363,16 +242,10 @@ fn blank_lines_keep_their_row_numbers() {
     let staged = import("blank_middle.csv", &ImportOptions::default());
     let r = staged.report();
     assert_eq!(r.rows, 4);
-    assert_eq!(
-        problem(r, ProblemKind::TextInNumeric, "value").examples,
-        cells(&[(4, "x")])
-    );
+    assert_eq!(problem(r, ProblemKind::TextInNumeric, "value").examples, cells(&[(4, "x")]));
     assert_eq!(
         r.notes,
-        vec![
-            "3 blank lines were skipped; blank lines keep their place in the row numbering"
-                .to_owned()
-        ]
+        vec!["3 blank lines were skipped; blank lines keep their place in the row numbering".to_owned()]
     );
 }
 
@@ -380,49 +253,34 @@ fn blank_lines_keep_their_row_numbers() {
 fn key_is_detected_or_chosen() {
     let plain = ImportOptions::default();
     // No key-like name: the first column with a value on every row.
-    let s =
-        import_bytes(b"name,share_pct\nNorth,1.5\nSouth,2.5\n", "a.csv", &plain).expect("import");
+    let s = import_bytes(b"name,share_pct\nNorth,1.5\nSouth,2.5\n", "a.csv", &plain).expect("import");
     assert_eq!(s.key(), Some("name"));
     // Chosen explicitly, even when numeric-looking: kept exactly as text.
     let s = import_bytes(
         b"area_no,share_pct\n007,1.5\n8,2.5\n",
         "b.csv",
-        &ImportOptions {
-            key: Some("area_no".into()),
-            ..plain.clone()
-        },
+        &ImportOptions { key: Some("area_no".into()), ..plain.clone() },
     )
     .expect("import");
-    assert_eq!(
-        texts(s.frame(), "area_no"),
-        vec![Some("007".into()), Some("8".into())]
-    );
+    assert_eq!(texts(s.frame(), "area_no"), vec![Some("007".into()), Some("8".into())]);
     assert_eq!(s.report().columns[0].role, ColumnRole::Key);
     // Only text may be a group: a role override on a text column is refused.
     let e = import_bytes(
         b"code,district_type\nA,mixed\nB,centre\n",
         "c.csv",
-        &ImportOptions {
-            roles: [("district_type".to_owned(), ColumnRole::Count)].into(),
-            ..plain.clone()
-        },
+        &ImportOptions { roles: [("district_type".to_owned(), ColumnRole::Count)].into(), ..plain.clone() },
     )
     .err()
     .map(|e| e.to_string());
     assert_eq!(
         e.as_deref(),
-        Some(
-            "column \"district_type\" holds text, so it can only be a group; it cannot be a count"
-        )
+        Some("column \"district_type\" holds text, so it can only be a group; it cannot be a count")
     );
     // No complete column: no key, and saving is blocked until one is chosen.
     let s = import_bytes(b"x,y\n1.5,\n,2.5\n", "d.csv", &plain).expect("import");
     assert_eq!(s.key(), None);
     assert!(!s.can_save());
-    assert_eq!(
-        s.blocking_reasons(),
-        vec!["no key column was found; choose one".to_owned()]
-    );
+    assert_eq!(s.blocking_reasons(), vec!["no key column was found; choose one".to_owned()]);
 }
 
 #[test]

@@ -16,12 +16,8 @@ use wardcast_engine::{Column, Design, Fit, FitOptions, Table};
 use wardcast_report::brief::{BriefInput, ChoiceCv, DatasetChecksum, ModelChoice, model_choice};
 
 /// The predictors of the reported model.
-pub const PREDICTORS: [&str; 4] = [
-    "unemployment_pct",
-    "vacancy_pct",
-    "alcohol_outlets_per_1k",
-    "median_income",
-];
+pub const PREDICTORS: [&str; 4] =
+    ["unemployment_pct", "vacancy_pct", "alcohol_outlets_per_1k", "median_income"];
 
 /// The numeric indicators offered to the subset search.
 const CANDIDATES: [&str; 7] = [
@@ -40,32 +36,18 @@ fn demo_dir() -> PathBuf {
 
 /// Reads the demo districts into an engine table with the derived rate.
 pub fn demo_table() -> Table {
-    let text = std::fs::read_to_string(demo_dir().join("larkmoor_districts.csv"))
-        .expect("the demo CSV is readable");
+    let text =
+        std::fs::read_to_string(demo_dir().join("larkmoor_districts.csv")).expect("the demo CSV is readable");
     let mut lines = text.lines().filter(|l| !l.trim().is_empty());
     let header: Vec<&str> = lines.next().expect("a header").split(',').collect();
     let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
-    assert!(
-        rows.iter().all(|r| r.len() == header.len()),
-        "every demo row has every column"
-    );
-    let col = |name: &str| {
-        header
-            .iter()
-            .position(|h| *h == name)
-            .unwrap_or_else(|| panic!("no column {name}"))
-    };
-    let keys: Vec<String> = rows
-        .iter()
-        .map(|r| r[col("district_code")].to_owned())
-        .collect();
+    assert!(rows.iter().all(|r| r.len() == header.len()), "every demo row has every column");
+    let col =
+        |name: &str| header.iter().position(|h| *h == name).unwrap_or_else(|| panic!("no column {name}"));
+    let keys: Vec<String> = rows.iter().map(|r| r[col("district_code")].to_owned()).collect();
     let numeric = |name: &str| -> Vec<f64> {
         rows.iter()
-            .map(|r| {
-                r[col(name)]
-                    .parse::<f64>()
-                    .unwrap_or_else(|_| panic!("{name} is numeric"))
-            })
+            .map(|r| r[col(name)].parse::<f64>().unwrap_or_else(|_| panic!("{name} is numeric")))
             .collect()
     };
     // Indicators may be blank (the demo plants a few gaps); a blank is a missing value.
@@ -73,20 +55,14 @@ pub fn demo_table() -> Table {
         rows.iter()
             .map(|r| {
                 let cell = r[col(name)].trim();
-                (!cell.is_empty()).then(|| {
-                    cell.parse::<f64>()
-                        .unwrap_or_else(|_| panic!("{name} is numeric"))
-                })
+                (!cell.is_empty())
+                    .then(|| cell.parse::<f64>().unwrap_or_else(|_| panic!("{name} is numeric")))
             })
             .collect()
     };
     let residents = numeric("residents");
     let assaults = numeric("assaults");
-    let rate: Vec<f64> = assaults
-        .iter()
-        .zip(&residents)
-        .map(|(a, r)| a / r * 10_000.0)
-        .collect();
+    let rate: Vec<f64> = assaults.iter().zip(&residents).map(|(a, r)| a / r * 10_000.0).collect();
     let mut columns = vec![
         Column::from_f64("residents", &residents),
         Column::from_f64("assaults", &assaults),
@@ -144,8 +120,7 @@ pub fn demo_spec() -> ModelSpec {
 
 /// Fits the spec and builds the fit and checks documents.
 pub fn documents(table: &Table, spec: &ModelSpec) -> (FitDocument, ChecksDocument) {
-    let design =
-        Design::build(table, &spec.to_engine().expect("a valid spec")).expect("the design builds");
+    let design = Design::build(table, &spec.to_engine().expect("a valid spec")).expect("the design builds");
     let fit = Fit::new(&design, &FitOptions::default()).expect("the model fits");
     let fit_doc = FitDocument::from_fit(&fit, spec).expect("the fit document builds");
     let checks = diagnostics::run(&fit, &CheckOptions::default());
@@ -169,8 +144,7 @@ pub fn demo_model_choice(table: &Table, spec: &ModelSpec) -> ModelChoice {
 /// The SHA-256 of the demo CSV, standing in for a stored version's checksum.
 fn demo_checksum() -> String {
     use sha2::Digest;
-    let bytes =
-        std::fs::read(demo_dir().join("larkmoor_districts.csv")).expect("the demo CSV is readable");
+    let bytes = std::fs::read(demo_dir().join("larkmoor_districts.csv")).expect("the demo CSV is readable");
     format!("sha256:{}", hex::encode(sha2::Sha256::digest(&bytes)))
 }
 
