@@ -198,32 +198,28 @@ pub fn f_quantile(p: f64, d1: f64, d2: f64) -> f64 {
 
 // ---------------------------------------------------------------- chi-squared
 
+/// Both tails `(P(X ≤ x), P(X > x)) = (P(df/2, x/2), Q(df/2, x/2))` of the chi-squared
+/// distribution, each computed directly so neither loses digits to `1 − other`.
+fn chi2_tails(x: f64, df: f64) -> (f64, f64) {
+    if bad_df(df) || x.is_nan() {
+        (f64::NAN, f64::NAN)
+    } else if x <= 0.0 {
+        (0.0, 1.0)
+    } else if x.is_infinite() {
+        (1.0, 0.0)
+    } else {
+        gamma_reg(0.5 * df, 0.5 * x)
+    }
+}
+
 /// Upper tail `P(X > x) = Q(df/2, x/2)` of the chi-squared distribution.
 pub fn chi2_sf(x: f64, df: f64) -> f64 {
-    if bad_df(df) || x.is_nan() {
-        return f64::NAN;
-    }
-    if x <= 0.0 {
-        return 1.0;
-    }
-    if x.is_infinite() {
-        return 0.0;
-    }
-    gamma_reg(0.5 * df, 0.5 * x).1
+    chi2_tails(x, df).1
 }
 
 /// Lower tail `P(X ≤ x) = P(df/2, x/2)`.
 pub fn chi2_cdf(x: f64, df: f64) -> f64 {
-    if bad_df(df) || x.is_nan() {
-        return f64::NAN;
-    }
-    if x <= 0.0 {
-        return 0.0;
-    }
-    if x.is_infinite() {
-        return 1.0;
-    }
-    gamma_reg(0.5 * df, 0.5 * x).0
+    chi2_tails(x, df).0
 }
 
 /// Density of the chi-squared distribution.

@@ -87,45 +87,44 @@ fn ln_beta_prefactor(a: f64, b: f64, x: f64, xc: f64, ln_x: f64, ln_xc: f64) -> 
     }
 }
 
+/// Smallest magnitude the modified Lentz method lets a denominator take (Press et al.,
+/// Numerical Recipes, 3rd ed., §5.2).
+const LENTZ_TINY: f64 = 1e-300;
+
+/// One step of the modified Lentz method for a continued fraction with partial numerator `an`
+/// and partial denominator `bn`: updates `c` and `d` and returns the factor `Δ = c·d` that
+/// multiplies the running value.
+fn lentz_step(an: f64, bn: f64, c: &mut f64, d: &mut f64) -> f64 {
+    *d = bn + an * *d;
+    if d.abs() < LENTZ_TINY {
+        *d = LENTZ_TINY;
+    }
+    *c = bn + an / *c;
+    if c.abs() < LENTZ_TINY {
+        *c = LENTZ_TINY;
+    }
+    *d = 1.0 / *d;
+    *c * *d
+}
+
 /// Continued fraction of the incomplete beta (A&S 26.5.8) by the modified Lentz method; valid
 /// and fast for `x < (a+1)/(a+b+2)`.
 fn beta_cf(a: f64, b: f64, x: f64) -> f64 {
-    const TINY: f64 = 1e-300;
     let qab = a + b;
     let qap = a + 1.0;
     let qam = a - 1.0;
     let mut c = 1.0;
     let mut d = 1.0 - qab * x / qap;
-    if d.abs() < TINY {
-        d = TINY;
+    if d.abs() < LENTZ_TINY {
+        d = LENTZ_TINY;
     }
     d = 1.0 / d;
     let mut h = d;
     for m in 1..MAX_ITER {
         let m = m as f64;
         let m2 = 2.0 * m;
-        let aa = m * (b - m) * x / ((qam + m2) * (a + m2));
-        d = 1.0 + aa * d;
-        if d.abs() < TINY {
-            d = TINY;
-        }
-        c = 1.0 + aa / c;
-        if c.abs() < TINY {
-            c = TINY;
-        }
-        d = 1.0 / d;
-        h *= d * c;
-        let aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2));
-        d = 1.0 + aa * d;
-        if d.abs() < TINY {
-            d = TINY;
-        }
-        c = 1.0 + aa / c;
-        if c.abs() < TINY {
-            c = TINY;
-        }
-        d = 1.0 / d;
-        let del = d * c;
+        h *= lentz_step(m * (b - m) * x / ((qam + m2) * (a + m2)), 1.0, &mut c, &mut d);
+        let del = lentz_step(-(a + m) * (qab + m) * x / ((a + m2) * (qap + m2)), 1.0, &mut c, &mut d);
         h *= del;
         if (del - 1.0).abs() <= f64::EPSILON {
             break;
@@ -225,25 +224,15 @@ pub fn gamma_reg(a: f64, x: f64) -> (f64, f64) {
         (p, 1.0 - p)
     } else {
         // Q = pre · 1/(x+1−a− 1·(1−a)/(x+3−a− 2·(2−a)/(x+5−a− …))) by modified Lentz.
-        const TINY: f64 = 1e-300;
         let mut b = x + 1.0 - a;
-        let mut c = 1.0 / TINY;
+        let mut c = 1.0 / LENTZ_TINY;
         let mut d = 1.0 / b;
         let mut h = d;
         for i in 1..MAX_ITER {
             let i = i as f64;
             let an = -i * (i - a);
             b += 2.0;
-            d = an * d + b;
-            if d.abs() < TINY {
-                d = TINY;
-            }
-            c = b + an / c;
-            if c.abs() < TINY {
-                c = TINY;
-            }
-            d = 1.0 / d;
-            let del = d * c;
+            let del = lentz_step(an, b, &mut c, &mut d);
             h *= del;
             if (del - 1.0).abs() <= f64::EPSILON {
                 break;

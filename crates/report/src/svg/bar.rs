@@ -125,26 +125,7 @@ impl Chart for BarChart {
         let mut svg = Doc::new(CHART_WIDTH, height, &self.title, &desc);
         draw_title(&mut svg, &self.title);
         draw_legend(&mut svg, legend_y, &legend);
-        svg.open_group("grid");
-        for &v in ticks.values() {
-            let px = x.map(v);
-            svg.line((px, area.top), (px, area.bottom), palette::GRID, 1.0, Dash::Solid);
-        }
-        svg.close_group();
-        svg.open_group("axes");
-        svg.line((area.left, area.bottom), (area.right, area.bottom), palette::INK, 1.5, Dash::Solid);
-        let tick = TextStyle::new(doc::TICK_SIZE).anchor(Anchor::Middle).fill(palette::MUTED);
-        for &v in ticks.values() {
-            let px = x.map(v);
-            svg.line((px, area.bottom), (px, area.bottom + 6.0), palette::INK, 1.5, Dash::Solid);
-            svg.text((px, area.bottom + 24.0), &ticks.label(v), tick);
-        }
-        svg.text(
-            ((area.left + area.right) / 2.0, area.bottom + 54.0),
-            &truncate(&self.axis.caption(), 80),
-            TextStyle::new(doc::CAPTION_SIZE).anchor(Anchor::Middle),
-        );
-        svg.close_group();
+        doc::draw_x_axis(&mut svg, area, &x, &ticks, &self.axis);
 
         svg.open_group("bars");
         let zero = x.map(0.0);

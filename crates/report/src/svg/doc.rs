@@ -399,6 +399,31 @@ pub(crate) fn draw_xy_axes(doc: &mut Doc, layout: &XyLayout, x_axis: &Axis, y_ax
     doc.close_group();
 }
 
+/// Draws a horizontal-only axis (vertical grid lines, the bottom axis line, tick labels and
+/// the caption), for charts whose rows are labelled on the left instead of by a y axis.
+pub(crate) fn draw_x_axis(doc: &mut Doc, area: Area, x: &LinearScale, ticks: &Ticks, axis: &Axis) {
+    doc.open_group("grid");
+    for &v in ticks.values() {
+        let px = x.map(v);
+        doc.line((px, area.top), (px, area.bottom), palette::GRID, 1.0, Dash::Solid);
+    }
+    doc.close_group();
+    doc.open_group("axes");
+    doc.line((area.left, area.bottom), (area.right, area.bottom), palette::INK, 1.5, Dash::Solid);
+    let tick = TextStyle::new(TICK_SIZE).fill(palette::MUTED).anchor(Anchor::Middle);
+    for &v in ticks.values() {
+        let px = x.map(v);
+        doc.line((px, area.bottom), (px, area.bottom + 6.0), palette::INK, 1.5, Dash::Solid);
+        doc.text((px, area.bottom + 24.0), &ticks.label(v), tick);
+    }
+    doc.text(
+        ((area.left + area.right) / 2.0, area.bottom + 54.0),
+        &super::text::truncate(&axis.caption(), 80),
+        TextStyle::new(CAPTION_SIZE).anchor(Anchor::Middle),
+    );
+    doc.close_group();
+}
+
 /// The distance between legend lines.
 pub(crate) const LEGEND_LINE: f64 = 26.0;
 

@@ -136,26 +136,7 @@ impl Chart for EffectPlot {
             TextStyle::new(doc::SMALL_SIZE).anchor(Anchor::End).fill(palette::MUTED),
         );
 
-        svg.open_group("grid");
-        for &v in ticks.values() {
-            let px = x.map(v);
-            svg.line((px, area.top), (px, area.bottom), palette::GRID, 1.0, Dash::Solid);
-        }
-        svg.close_group();
-        svg.open_group("axes");
-        svg.line((area.left, area.bottom), (area.right, area.bottom), palette::INK, 1.5, Dash::Solid);
-        let tick = TextStyle::new(doc::TICK_SIZE).fill(palette::MUTED).anchor(Anchor::Middle);
-        for &v in ticks.values() {
-            let px = x.map(v);
-            svg.line((px, area.bottom), (px, area.bottom + 6.0), palette::INK, 1.5, Dash::Solid);
-            svg.text((px, area.bottom + 24.0), &ticks.label(v), tick);
-        }
-        svg.text(
-            ((area.left + area.right) / 2.0, area.bottom + 54.0),
-            &truncate(&self.axis.caption(), 80),
-            TextStyle::new(doc::CAPTION_SIZE).anchor(Anchor::Middle),
-        );
-        svg.close_group();
+        doc::draw_x_axis(&mut svg, area, &x, &ticks, &self.axis);
         if let Some(v) = reference {
             let px = x.map(v);
             svg.line((px, area.top), (px, area.bottom), palette::REFERENCE, 2.0, Dash::Dashed);
