@@ -4,13 +4,23 @@
 /// The test modules, in tests/server/.
 mod server {
     mod api;
+    mod areas;
+    mod brief;
     mod cli;
+    mod contenders;
+    mod jobs;
     mod pages;
     mod security;
+    mod setup;
+    mod soundness;
+    mod survey;
+    mod tables;
+    mod whatif;
     mod words;
 }
 
 use std::net::{IpAddr, Ipv4Addr};
+use std::sync::Arc;
 
 use axum::Router;
 use axum::body::Body;
@@ -18,15 +28,10 @@ use axum::http::{Request, Response, header};
 use http_body_util::BodyExt;
 use tower::ServiceExt;
 use wardcast::security::{SecurityConfig, Token};
-use wardcast::web::{Analysis, AppState, ColumnInfo, Glossary, router};
-use wardcast_contract::SCHEMA_VERSION;
-use wardcast_contract::cautions::standing_cautions;
-use wardcast_contract::fit::{
-    CoefficientDoc, DroppedRowDoc, FitDocument, Interval, LIKELIHOOD_CONVENTION, Likelihood, OverallF,
-    SumsOfSquares, TermTest,
-};
-use wardcast_contract::numbers::Number;
+use wardcast::web::{Analysis, AnalysisParts, AppState, ColumnInfo, Glossary, Source, router};
+use wardcast_contract::fit::FitDocument;
 use wardcast_contract::spec::{ModelSpec, PredictorSpec, TransformSpec};
+use wardcast_engine::{Column, Table};
 
 /// The port used by every test router.
 pub const PORT: u16 = 7878;
@@ -39,26 +44,10 @@ pub const NASTY: &str = "<script>\"'&";
 /// How that name must appear in HTML.
 pub const NASTY_ESCAPED: &str = "&#60;script&#62;&#34;&#39;&#38;";
 
-fn coefficient(term: &str, estimate: f64, se: f64, t: f64, p: f64, low: f64, high: f64) -> CoefficientDoc {
-    CoefficientDoc {
-        term: term.into(),
-        estimate,
-        std_error: se,
-        t_value: Number::Finite(t),
-        p_value: Number::Finite(p),
-        interval: Interval { level: 0.95, low, high },
-    }
-}
-
-fn test_row(term: &str, df: usize, ss: f64, f: f64, p: f64) -> TermTest {
-    TermTest { term: term.into(), df, sum_sq: ss, f: Number::Finite(f), p_value: Number::Finite(p) }
-}
-
-/// A fit document shaped like the demo's: a plain predictor, a logged one, a categorical one
-/// and a predictor named by `odd_column`. The figures are invented inputs for the views (they
-/// test presentation, not arithmetic); the engine's own tests check the arithmetic.
-pub fn sample_fit(odd_column: &str, dropped_key: &str) -> FitDocument {
-    let mut spec = ModelSpec::new("assault_rate", ["unemployment_pct"]);
+/// The model of the sample analysis: the demo's assault rate on a plain predictor, a logged
+/// one, a categorical one with a chosen reference level, and the column named `odd_column`.
+pub fn sample_spec(odd_column: &str) -> ModelSpec {
+    let mut spec = ModelSpec::new("assault_rate_per_10k", ["unemployment_pct"]);
     spec.predictors.push(PredictorSpec {
         column: "vacancy_pct".into(),
         transform: Some(TransformSpec::Log),
@@ -70,91 +59,70 @@ pub fn sample_fit(odd_column: &str, dropped_key: &str) -> FitDocument {
         reference_level: Some("residential".into()),
     });
     spec.predictors.push(PredictorSpec { column: odd_column.into(), transform: None, reference_level: None });
-    FitDocument {
-        schema_version: SCHEMA_VERSION.into(),
-        kind: "fit".into(),
-        spec,
-        rows_used: 62,
-        rows_dropped: vec![DroppedRowDoc {
-            key: dropped_key.into(),
-            reason: "missing value in vacancy_pct".into(),
-        }],
-        coefficients: vec![
-            coefficient("(intercept)", 12.5, 3.1, 4.03, 0.00017, 6.3, 18.7),
-            coefficient("unemployment_pct", 2.25, 0.6, 3.75, 0.00042, 1.05, 3.45),
-            coefficient("log(vacancy_pct)", 8.0, 2.0, 4.0, 0.00019, 4.0, 12.0),
-            coefficient("district_type=centre", -3.5, 1.5, -2.33, 0.023, -6.5, -0.5),
-            coefficient("district_type=mixed", 1.2, 0.85, 1.41, 0.16, -0.5, 2.9),
-            coefficient(odd_column, 0.5, 0.2, 2.5, 0.015, 0.1, 0.9),
-        ],
-        covariance: vec![vec![0.0; 6]; 6],
-        sums_of_squares: SumsOfSquares {
-            basis: "about_mean".into(),
-            error: 900.0,
-            regression: 2100.0,
-            total: 3000.0,
-        },
-        df_model: 5,
-        df_residual: 56,
-        mse: 900.0 / 56.0,
-        residual_sd: (900.0f64 / 56.0).sqrt(),
-        r_squared: 0.7,
-        adj_r_squared: 0.673,
-        overall_f: OverallF {
-            statistic: Number::Finite(26.13),
-            df_model: 5,
-            df_residual: 56,
-            p_value: Number::Finite(1.2e-13),
-        },
-        sequential_anova: vec![
-            test_row("unemployment_pct", 1, 1200.0, 74.7, 1e-11),
-            test_row("log(vacancy_pct)", 1, 600.0, 37.3, 1e-7),
-            test_row("district_type", 2, 200.0, 6.2, 0.0037),
-            test_row(odd_column, 1, 100.0, 6.2, 0.015),
-        ],
-        partial_f: vec![
-            test_row("unemployment_pct", 1, 226.0, 14.06, 0.00042),
-            test_row("log(vacancy_pct)", 1, 257.0, 16.0, 0.00019),
-            test_row("district_type", 2, 190.0, 5.9, 0.0047),
-            test_row(odd_column, 1, 100.0, 6.25, 0.015),
-        ],
-        likelihood: Likelihood {
-            log_likelihood: -170.2,
-            aic: 352.4,
-            sbc: 365.2,
-            convention: LIKELIHOOD_CONVENTION.into(),
-        },
-        exact_fit: false,
-        rows: Vec::new(),
-        notes: Vec::new(),
-        cautions: standing_cautions(),
-    }
+    spec
 }
 
-/// Labels and units like the demo's.
+/// The invented demo table with the streetlight column renamed `odd_column` and the first
+/// district that the sample model drops (LK-12, missing vacancy) keyed `dropped_key` (a
+/// district already keyed `dropped_key` takes LK-12 instead).
+pub fn sample_table(odd_column: &str, dropped_key: &str) -> Table {
+    let demo = wardcast::demo::larkmoor_table().expect("the demo table loads");
+    let keys: Vec<String> = demo
+        .keys()
+        .iter()
+        .map(|k| match k.as_str() {
+            "LK-12" => dropped_key.to_owned(),
+            k if k == dropped_key => "LK-12".to_owned(),
+            k => k.to_owned(),
+        })
+        .collect();
+    let columns: Vec<Column> = demo
+        .columns()
+        .iter()
+        .map(|c| {
+            let mut c = c.clone();
+            if c.name == "streetlight_outages_per_km" {
+                c.name = odd_column.to_owned();
+            }
+            c
+        })
+        .collect();
+    Table::new(keys, columns).expect("table")
+}
+
+/// Labels and units: the demo's, plus the odd column described by its own name.
 pub fn sample_glossary(odd_column: &str) -> Glossary {
-    Glossary::new("districts")
-        .with_column(
-            "assault_rate",
-            ColumnInfo::new("assault rate", Some("assault incidents per 10,000 residents")),
-        )
-        .with_column("unemployment_pct", ColumnInfo::new("Unemployment", Some("% of labour force")))
-        .with_column("vacancy_pct", ColumnInfo::new("Housing vacancy", Some("% of dwellings")))
-        .with_column("district_type", ColumnInfo::new("District type", None))
+    Glossary::from_meta("districts", &wardcast::demo::column_meta())
         .with_column(odd_column, ColumnInfo::new(odd_column, None))
+}
+
+/// A fitted analysis of the sample table.
+pub fn sample_analysis(id: &str, name: &str, odd_column: &str, dropped_key: &str) -> Analysis {
+    Analysis::build(AnalysisParts {
+        id: id.into(),
+        name: name.into(),
+        glossary: sample_glossary(odd_column),
+        source: Arc::new(Source::bare("Sample districts", sample_table(odd_column, dropped_key))),
+        spec: sample_spec(odd_column),
+        parent: None,
+    })
+    .expect("the sample model fits")
+}
+
+/// The fit document of the sample analysis, computed without the web layer.
+pub fn sample_fit(odd_column: &str, dropped_key: &str) -> FitDocument {
+    let fitted =
+        wardcast::analysis::Fitted::new(&sample_table(odd_column, dropped_key), &sample_spec(odd_column))
+            .expect("the sample model fits");
+    fitted.fit_document().expect("document")
 }
 
 /// A workspace holding the sample analysis under id `demo`.
 pub fn sample_state() -> AppState {
     let state = AppState::new();
-    let analysis = Analysis::new(
-        "demo",
-        "Larkmoor assaults",
-        sample_glossary("streetlight_outages"),
-        sample_fit("streetlight_outages", "LK-33"),
-    )
-    .expect("valid id");
-    state.insert(analysis).expect("insert");
+    state
+        .insert(sample_analysis("demo", "Larkmoor assaults", "streetlight_outages", "LK-33"))
+        .expect("insert");
     state
 }
 

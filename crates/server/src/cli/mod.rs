@@ -91,7 +91,7 @@ fn serve(args: ServeArgs) -> Result<ExitCode, String> {
         .clone()
         .or_else(wardcast_store::Store::default_dir)
         .ok_or("no data folder could be found; give one with --data-dir")?;
-    let (_store, report) = wardcast_store::Store::open(&dir).map_err(|e| e.to_string())?;
+    let (store, report) = wardcast_store::Store::open(&dir).map_err(|e| e.to_string())?;
     for line in &report.log {
         eprintln!("wardcast: {line}");
     }
@@ -107,6 +107,6 @@ fn serve(args: ServeArgs) -> Result<ExitCode, String> {
         .build()
         .map_err(|e| format!("could not start the runtime: {e}"))?;
     let config = crate::web::ServeConfig { port: args.port, data_dir: args.data_dir, share: args.share };
-    runtime.block_on(crate::web::serve(config)).map_err(|e| e.to_string())?;
+    runtime.block_on(crate::web::serve(config, Some(store))).map_err(|e| e.to_string())?;
     Ok(ExitCode::SUCCESS)
 }

@@ -1,27 +1,42 @@
 //! The web app: router, handlers and views, and the function that serves them.
 //!
-//! Routes (pages work without JavaScript; every page route has a JSON twin under `/api`):
+//! Pages work without JavaScript; every page action has a JSON twin under `/api` (listed in
+//! docs/API.md). Each page module owns its routes and says them in its own docs:
 //!
-//! | Method | Path                         | What                                   |
-//! |--------|------------------------------|----------------------------------------|
-//! | GET    | `/`                          | start page: the analyses of the session |
-//! | GET    | `/analyses/{id}`             | Effects page of an analysis             |
-//! | GET    | `/join?t=TOKEN`              | sharing: the "continue" page            |
-//! | POST   | `/join`                      | sharing: token → session cookie, 303 → `/` |
-//! | GET    | `/assets/…`                  | CSS and other static files              |
-//! | GET    | `/api/analyses`              | the analysis list (JSON)                |
-//! | GET    | `/api/analyses/{id}/fit`     | the fit document (JSON)                 |
+//! | Module         | Pages                                                          |
+//! |----------------|----------------------------------------------------------------|
+//! | [`start`]      | `/`: the analyses and tables of the session                    |
+//! | [`tables`]     | `/tables…`: upload, validate, join, derive, describe            |
+//! | [`setup`]      | `/analyses/{id}/data`: source table, model set-up, refits       |
+//! | [`survey`]     | `/analyses/{id}/survey`                                         |
+//! | [`effects`]    | `/analyses/{id}`: effects with intervals, fit in words          |
+//! | [`soundness`]  | `/analyses/{id}/soundness`: diagnostics                         |
+//! | [`contenders`] | `/analyses/{id}/contenders`: model comparison (background jobs) |
+//! | [`areas`]      | `/analyses/{id}/areas`: observed against expected              |
+//! | [`whatif`]     | `/analyses/{id}/what-if`: scenarios and allocation             |
+//! | [`brief`]      | `/analyses/{id}/brief`: the brief and its downloads            |
+//! | [`jobs`]       | `/jobs/{job}`: progress, cancel, result link                   |
+//! | [`join`]       | `/join`: sharing, token → session cookie                        |
 //!
 //! Security (see [`crate::security`]) wraps every route; response headers are set outermost
 //! so that refusals, timeouts and 404s carry them too.
 
 mod api;
+pub mod areas;
+pub mod brief;
+pub mod contenders;
 pub mod demo;
 pub mod effects;
+pub mod jobs;
 mod join;
 pub mod pages;
+pub mod setup;
+pub mod soundness;
 mod start;
 pub mod state;
+pub mod survey;
+pub mod tables;
+pub mod whatif;
 pub mod words;
 
 use std::net::{IpAddr, Ipv4Addr, SocketAddr};
@@ -40,7 +55,7 @@ use tower_http::set_header::SetResponseHeaderLayer;
 use tower_http::timeout::{RequestBodyTimeoutLayer, TimeoutLayer};
 
 pub use crate::security::DEFAULT_PORT;
-pub use state::{Analysis, AppState, ColumnInfo, Glossary};
+pub use state::{Analysis, AnalysisParts, AppState, CheckedModel, ColumnInfo, Extras, Glossary, Source};
 
 use crate::error::{Result, ServerError};
 use crate::security::{self, CONTENT_SECURITY_POLICY, Limits, Security, SecurityConfig, Token};
@@ -68,6 +83,38 @@ impl Ctx {
             ServerError::NotFound(format!("There is no analysis called {id:?} in this session."))
         })
     }
+
+    /// The workspace.
+    #[allow(dead_code, reason = "the page modules use it as they land")]
+    pub(crate) fn app(&self) -> &AppState {
+        &self.app
+    }
+
+    /// Looks up an analysis and makes sure its diagnostics are computed, computing them on the
+    /// blocking pool the first time.
+    #[allow(dead_code, reason = "the page modules use it as they land")]
+    pub(crate) async fn checked(&self, id: &str) -> Result<(Arc<Analysis>, Arc<CheckedModel>)> {
+        let analysis = self.analysis(id)?;
+        if analysis.checks_ready() {
+            let checks = analysis.checks();
+            return Ok((analysis, checks));
+        }
+        let a = analysis.clone();
+        let checks = blocking(move || Ok(a.checks())).await?;
+        Ok((analysis, checks))
+    }
+}
+
+/// Runs blocking work (fits, searches, imports, rendering a PDF) on tokio's blocking pool, so
+/// no request ever stalls the async runtime.
+pub(crate) async fn blocking<T, F>(work: F) -> Result<T>
+where
+    T: Send + 'static,
+    F: FnOnce() -> Result<T> + Send + 'static,
+{
+    tokio::task::spawn_blocking(work)
+        .await
+        .map_err(|e| ServerError::Internal(format!("a background computation stopped: {e}")))?
 }
 
 /// Where the static assets are: the repository's `assets/` folder.
@@ -91,6 +138,15 @@ pub fn router_with_assets(state: AppState, security: SecurityConfig, assets: Pat
         .route("/join", get(join::show).post(join::exchange))
         .route("/api/analyses", get(api::list))
         .route("/api/analyses/{id}/fit", get(api::fit))
+        .merge(tables::routes())
+        .merge(setup::routes())
+        .merge(survey::routes())
+        .merge(soundness::routes())
+        .merge(contenders::routes())
+        .merge(areas::routes())
+        .merge(whatif::routes())
+        .merge(brief::routes())
+        .merge(jobs::routes())
         .nest_service("/assets", ServeDir::new(assets))
         .fallback(not_found)
         .with_state(ctx);
@@ -171,11 +227,13 @@ impl Default for ServeOptions {
     }
 }
 
-/// Loads the Larkmoor demo and serves it; see [`serve_with`].
-pub async fn serve(config: ServeConfig) -> Result<()> {
-    let state = tokio::task::spawn_blocking(demo::demo_state)
-        .await
-        .map_err(|e| ServerError::Internal(format!("loading the demo stopped: {e}")))??;
+/// Loads the Larkmoor demo into a workspace kept in `store` (when given) and serves it; see
+/// [`serve_with`].
+pub async fn serve(config: ServeConfig, store: Option<wardcast_store::Store>) -> Result<()> {
+    let mut state = blocking(demo::demo_state).await?;
+    if let Some(store) = store {
+        state = state.with_store(store);
+    }
     serve_with(config, ServeOptions { state, ..ServeOptions::default() }).await
 }
 
@@ -230,5 +288,18 @@ pub async fn serve_with(config: ServeConfig, options: ServeOptions) -> Result<()
 pub(crate) fn see_other(location: &'static str) -> Response {
     let mut response = StatusCode::SEE_OTHER.into_response();
     response.headers_mut().insert(header::LOCATION, HeaderValue::from_static(location));
+    response
+}
+
+/// A 303 redirect to a computed same-site path (e.g. `/analyses/larkmoor-2/soundness`). The
+/// path must start with `/` and be a valid header value; anything else redirects to `/`.
+pub(crate) fn see_other_to(location: &str) -> Response {
+    let mut response = StatusCode::SEE_OTHER.into_response();
+    let value = if location.starts_with('/') && !location.starts_with("//") {
+        HeaderValue::from_str(location).unwrap_or(HeaderValue::from_static("/"))
+    } else {
+        HeaderValue::from_static("/")
+    };
+    response.headers_mut().insert(header::LOCATION, value);
     response
 }

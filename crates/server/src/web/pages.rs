@@ -10,26 +10,53 @@ use crate::error::ServerError;
 
 /// The sections of an analysis, in the order the analyst usually walks them.
 ///
-/// Each entry: the navigation label, the path segment under `/analyses/{id}` (empty for the
-/// analysis' main page), a one-line hint, and whether the section exists yet.
-const SECTIONS: [(&str, &str, &str, bool); 8] = [
-    ("Data", "data", "Upload, check and join tables", false),
-    ("Survey", "survey", "Each column's spread, and how the columns move together", false),
-    ("Effects", "", "What the model says, with intervals", true),
-    ("Soundness", "soundness", "Whether the model's assumptions hold", false),
-    ("Contenders", "contenders", "Candidate models side by side", false),
-    ("Areas", "areas", "Observed against expected, area by area", false),
-    ("What if", "what-if", "Predicted outcomes for changed indicators", false),
-    ("Brief", "brief", "The exportable summary", false),
+/// Each entry: the section, the navigation label, the path segment under `/analyses/{id}`
+/// (empty for the analysis' main page) and a one-line hint.
+const SECTIONS: [(Section, &str, &str, &str); 8] = [
+    (Section::Data, "Data", "data", "The table behind the model, and the model's set-up"),
+    (Section::Survey, "Survey", "survey", "Each column's spread, and how the columns move together"),
+    (Section::Effects, "Effects", "", "What the model says, with intervals"),
+    (Section::Soundness, "Soundness", "soundness", "Whether the model's assumptions hold"),
+    (Section::Contenders, "Contenders", "contenders", "Candidate models side by side"),
+    (Section::Areas, "Areas", "areas", "Observed against expected, area by area"),
+    (Section::WhatIf, "What if", "what-if", "Predicted outcomes for changed indicators, and allocation"),
+    (Section::Brief, "Brief", "brief", "The exportable summary"),
 ];
 
 /// The section a page belongs to, for highlighting the navigation.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Section {
-    /// The start page, outside any analysis.
+    /// The start page and the table pages, outside any analysis.
     Start,
+    /// The table behind an analysis and its model set-up.
+    Data,
+    /// Column summaries, scatter matrix and correlations.
+    Survey,
     /// The effects page of an analysis.
     Effects,
+    /// Diagnostics.
+    Soundness,
+    /// Model comparison: subsets, cross-validation, nested tests.
+    Contenders,
+    /// Observed against expected per area.
+    Areas,
+    /// Scenarios and allocation.
+    WhatIf,
+    /// The brief.
+    Brief,
+}
+
+/// The address of a section of an analysis.
+pub fn section_href(id: &str, section: Section) -> String {
+    SECTIONS
+        .iter()
+        .find(|(s, ..)| *s == section)
+        .map(
+            |&(_, _, path, _)| {
+                if path.is_empty() { format!("/analyses/{id}") } else { format!("/analyses/{id}/{path}") }
+            },
+        )
+        .unwrap_or_else(|| "/".to_owned())
 }
 
 /// One navigation entry. Sections that do not exist yet are shown without a link.
@@ -70,11 +97,11 @@ impl Layout {
     pub fn analysis(title: impl Into<String>, shared: bool, id: &str, name: &str, section: Section) -> Self {
         let nav = SECTIONS
             .iter()
-            .map(|&(label, path, hint, available)| {
-                let href = available.then(|| {
-                    if path.is_empty() { format!("/analyses/{id}") } else { format!("/analyses/{id}/{path}") }
-                });
-                NavItem { label, href, hint, current: section == Section::Effects && label == "Effects" }
+            .map(|&(s, label, _, hint)| NavItem {
+                label,
+                href: Some(section_href(id, s)),
+                hint,
+                current: section == s,
             })
             .collect();
         Layout {

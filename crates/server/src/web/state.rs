@@ -1,16 +1,26 @@
-//! The in-memory workspace behind the web app: the analyses of this session and what the pages
-//! need to describe them in words (column labels and units).
+//! The in-memory workspace behind the web app: the analyses of this session (source table,
+//! fit, diagnostics, the analyst's extras), the background jobs, the optional store, and what
+//! the pages need to describe columns in words (labels and units).
 //!
-//! The workspace sits behind one `RwLock`. Handlers take the lock only to clone an `Arc` to an
-//! analysis and release it at once, so no lock is ever held across an `.await` or while a
+//! The analysis map sits behind one `RwLock`. Handlers take the lock only to clone an `Arc` to
+//! an analysis and release it at once, so no lock is ever held across an `.await` or while a
 //! page renders.
 
 use std::collections::BTreeMap;
-use std::sync::{Arc, RwLock};
+use std::sync::{Arc, Mutex, OnceLock, RwLock};
 
-use wardcast_contract::dataset::ColumnMeta;
+use wardcast_contract::allocation::AllocationDocument;
+use wardcast_contract::checks::ChecksDocument;
+use wardcast_contract::dataset::{ColumnMeta, JoinReport};
 use wardcast_contract::fit::FitDocument;
+use wardcast_contract::spec::ModelSpec;
+use wardcast_engine::Table;
+use wardcast_engine::diagnostics::Checks;
+use wardcast_report::brief::{DatasetChecksum, ModelChoice};
+use wardcast_store::Store;
 
+use super::jobs::Jobs;
+use crate::analysis::Fitted;
 use crate::error::{Result, ServerError};
 
 /// What the pages know about a column beyond its name: a label for sentences, a unit, and the
@@ -126,43 +136,125 @@ pub fn round_step(xs: &[f64]) -> Option<f64> {
     Some(10f64.powi(sd.log10().floor() as i32))
 }
 
-/// A fitted analysis as the pages show it. Immutable once built.
+/// Where an analysis' table came from: the table itself and what the brief and the Data page
+/// say about it. Shared (behind an `Arc`) by every analysis fitted on the same table.
 #[derive(Debug, Clone)]
+pub struct Source {
+    /// A name for the table, e.g. "Larkmoor districts" (user-supplied; escaped wherever shown).
+    pub name: String,
+    /// The table the engine reads, keyed by area.
+    pub table: Table,
+    /// Column metadata: labels, units, roles, sources and vintages.
+    pub columns: Vec<ColumnMeta>,
+    /// The stored dataset versions read, with their checksums.
+    pub checksums: Vec<DatasetChecksum>,
+    /// The join that built the table, if any.
+    pub join: Option<JoinReport>,
+    /// Data-quality notes (from the import reports and the analyst).
+    pub notes: Vec<String>,
+    /// The store reference (`dataset@version`) when the table was saved in the store.
+    pub dataset: Option<String>,
+}
+
+impl Source {
+    /// A source with only a name and a table (no metadata, checksums, join or notes).
+    pub fn bare(name: impl Into<String>, table: Table) -> Self {
+        Source {
+            name: name.into(),
+            table,
+            columns: Vec::new(),
+            checksums: Vec::new(),
+            join: None,
+            notes: Vec::new(),
+            dataset: None,
+        }
+    }
+}
+
+/// The diagnostics of an analysis, computed once: the engine result and its document.
+#[derive(Debug)]
+pub struct CheckedModel {
+    /// The engine's checks (residual tables, plot data, influence, collinearity…).
+    pub checks: Checks,
+    /// The checks document, exactly as the JSON API and `wardcast check` write it.
+    pub document: ChecksDocument,
+}
+
+/// What the analyst adds to an analysis after fitting it: the model-choice results, the
+/// allocation and the brief's question. Pages read a copy; the page that produces a part
+/// replaces it. Kept behind a lock inside [`Analysis`], never held across an `.await`.
+#[derive(Debug, Clone, Default)]
+pub struct Extras {
+    /// How the model was chosen (subset search, CV comparison, nested tests), once the analyst
+    /// ran the search on the Contenders page.
+    pub model_choice: Option<ModelChoice>,
+    /// The latest allocation scenario run on the What-if page.
+    pub allocation: Option<AllocationDocument>,
+    /// The decision question for the brief.
+    pub question: Option<String>,
+    /// The analyst's name for the brief.
+    pub author: Option<String>,
+}
+
+/// A fitted analysis: the source table, the validated spec and its fit, the fit document the
+/// JSON API serves, the diagnostics (computed on first use) and the analyst's extras.
+///
+/// Everything but the extras is immutable once built: a changed spec is a new analysis with
+/// its own id, and `parent` records where it came from.
+#[derive(Debug)]
 pub struct Analysis {
     id: String,
     name: String,
     glossary: Glossary,
+    source: Arc<Source>,
+    fitted: Fitted,
     fit: FitDocument,
+    parent: Option<String>,
+    checks: OnceLock<Arc<CheckedModel>>,
+    extras: RwLock<Extras>,
+}
+
+/// What an analysis is built from.
+#[derive(Debug, Clone)]
+pub struct AnalysisParts {
+    /// The id; it becomes part of the stable URL `/analyses/{id}`: 1–64 characters of lowercase
+    /// letters, digits and hyphens, starting with a letter or digit.
+    pub id: String,
+    /// The analyst's name for it.
+    pub name: String,
+    /// Column labels and units.
+    pub glossary: Glossary,
+    /// The table and its description.
+    pub source: Arc<Source>,
+    /// The model.
+    pub spec: ModelSpec,
+    /// The analysis this one was refitted from, if any.
+    pub parent: Option<String>,
 }
 
 impl Analysis {
-    /// Builds an analysis. The id becomes part of its stable URL, so it must be 1–64 characters
-    /// of lowercase letters, digits and hyphens, starting with a letter or digit.
-    pub fn new(
-        id: impl Into<String>,
-        name: impl Into<String>,
-        glossary: Glossary,
-        fit: FitDocument,
-    ) -> Result<Self> {
-        let id = id.into();
+    /// Validates the spec against the source table and fits it. Blocking numerics: call it from
+    /// `spawn_blocking` inside the runtime.
+    pub fn build(parts: AnalysisParts) -> Result<Self> {
+        let AnalysisParts { id, name, glossary, source, spec, parent } = parts;
         if !valid_id(&id) {
             return Err(ServerError::BadRequest(format!(
                 "{id:?} cannot name an analysis: use 1 to 64 lowercase letters, digits and hyphens"
             )));
         }
-        Ok(Analysis { id, name: name.into(), glossary, fit })
-    }
-
-    /// Builds an analysis from an engine fit and the spec it came from, through the same fit
-    /// document the JSON API and the command line write.
-    pub fn from_fit(
-        id: impl Into<String>,
-        name: impl Into<String>,
-        glossary: Glossary,
-        fit: &wardcast_engine::Fit,
-        spec: &wardcast_contract::spec::ModelSpec,
-    ) -> Result<Self> {
-        Analysis::new(id, name, glossary, FitDocument::from_fit(fit, spec)?)
+        let fitted = Fitted::new(&source.table, &spec)?;
+        let fit = fitted.fit_document()?;
+        Ok(Analysis {
+            id,
+            name,
+            glossary,
+            source,
+            fitted,
+            fit,
+            parent,
+            checks: OnceLock::new(),
+            extras: RwLock::new(Extras::default()),
+        })
     }
 
     /// The id used in URLs.
@@ -180,9 +272,64 @@ impl Analysis {
         &self.glossary
     }
 
+    /// The source table and its description.
+    pub fn source(&self) -> &Arc<Source> {
+        &self.source
+    }
+
+    /// The engine table the model was fitted on.
+    pub fn table(&self) -> &Table {
+        &self.source.table
+    }
+
+    /// The spec.
+    pub fn spec(&self) -> &ModelSpec {
+        self.fitted.spec()
+    }
+
+    /// The validated, fitted model (engine fit and spec).
+    pub fn fitted(&self) -> &Fitted {
+        &self.fitted
+    }
+
     /// The fit document, exactly as the JSON API serves it.
     pub fn fit(&self) -> &FitDocument {
         &self.fit
+    }
+
+    /// The analysis this one was refitted from.
+    pub fn parent(&self) -> Option<&str> {
+        self.parent.as_deref()
+    }
+
+    /// The diagnostics, computed on the first call and shared afterwards. The first call is
+    /// blocking numerics (the transformation search cross-validates), so handlers make it
+    /// inside `spawn_blocking` unless [`Analysis::checks_ready`] says it is done.
+    pub fn checks(&self) -> Arc<CheckedModel> {
+        self.checks
+            .get_or_init(|| {
+                let checks = self.fitted.checks();
+                let document = ChecksDocument::from_checks(&checks, self.fitted.spec());
+                Arc::new(CheckedModel { checks, document })
+            })
+            .clone()
+    }
+
+    /// Whether the diagnostics are already computed.
+    pub fn checks_ready(&self) -> bool {
+        self.checks.get().is_some()
+    }
+
+    /// A copy of the analyst's extras.
+    pub fn extras(&self) -> Result<Extras> {
+        Ok(self.extras.read().map_err(|_| poisoned())?.clone())
+    }
+
+    /// Changes the extras under the lock.
+    pub fn update_extras(&self, change: impl FnOnce(&mut Extras)) -> Result<()> {
+        let mut extras = self.extras.write().map_err(|_| poisoned())?;
+        change(&mut extras);
+        Ok(())
     }
 }
 
@@ -194,23 +341,42 @@ pub fn valid_id(id: &str) -> bool {
         && id.bytes().all(|b| b.is_ascii_lowercase() || b.is_ascii_digit() || b == b'-')
 }
 
-/// The session's analyses, shared by all handlers. Cheap to clone.
+/// The session's workspace, shared by all handlers. Cheap to clone.
 #[derive(Debug, Clone, Default)]
 pub struct AppState {
     analyses: Arc<RwLock<BTreeMap<String, Arc<Analysis>>>>,
+    jobs: Jobs,
+    store: Option<Arc<Mutex<Store>>>,
 }
 
 impl AppState {
-    /// An empty workspace.
+    /// An empty workspace with no store (nothing is persisted).
     pub fn new() -> Self {
         AppState::default()
     }
 
-    /// Adds an analysis, replacing one with the same id.
-    pub fn insert(&self, analysis: Analysis) -> Result<()> {
+    /// Keeps datasets and analyses in `store` as well as in memory.
+    pub fn with_store(mut self, store: Store) -> Self {
+        self.store = Some(Arc::new(Mutex::new(store)));
+        self
+    }
+
+    /// The store, when the workspace has one. Lock it only inside `spawn_blocking`.
+    pub fn store(&self) -> Option<&Arc<Mutex<Store>>> {
+        self.store.as_ref()
+    }
+
+    /// The background jobs (subset searches, cross-validation, transformation searches).
+    pub fn jobs(&self) -> &Jobs {
+        &self.jobs
+    }
+
+    /// Adds an analysis, replacing one with the same id, and returns it shared.
+    pub fn insert(&self, analysis: Analysis) -> Result<Arc<Analysis>> {
+        let analysis = Arc::new(analysis);
         let mut map = self.analyses.write().map_err(|_| poisoned())?;
-        map.insert(analysis.id.clone(), Arc::new(analysis));
-        Ok(())
+        map.insert(analysis.id.clone(), analysis.clone());
+        Ok(analysis)
     }
 
     /// The analysis with this id, if any.
@@ -223,6 +389,30 @@ impl AppState {
     pub fn list(&self) -> Result<Vec<Arc<Analysis>>> {
         let map = self.analyses.read().map_err(|_| poisoned())?;
         Ok(map.values().cloned().collect())
+    }
+
+    /// An unused analysis id made from `name`: its slug (lowercase letters, digits and single
+    /// hyphens; `analysis` when nothing is left), then `-2`, `-3`… until one is free.
+    pub fn fresh_id(&self, name: &str) -> Result<String> {
+        let mut slug = String::new();
+        for c in name.to_lowercase().chars() {
+            if c.is_ascii_lowercase() || c.is_ascii_digit() {
+                slug.push(c);
+            } else if !slug.ends_with('-') && !slug.is_empty() {
+                slug.push('-');
+            }
+        }
+        slug.truncate(48);
+        let base = slug.trim_end_matches('-');
+        let base = if base.is_empty() { "analysis" } else { base };
+        let map = self.analyses.read().map_err(|_| poisoned())?;
+        if !map.contains_key(base) {
+            return Ok(base.to_owned());
+        }
+        (2u32..)
+            .map(|n| format!("{base}-{n}"))
+            .find(|id| !map.contains_key(id))
+            .ok_or_else(|| ServerError::Internal("no free analysis id".into()))
     }
 }
 

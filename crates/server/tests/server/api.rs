@@ -20,8 +20,9 @@ async fn the_analysis_list_links_each_page_and_document() {
     let first = &list["analyses"][0];
     assert_eq!(first["id"], "demo");
     assert_eq!(first["name"], "Larkmoor assaults");
-    assert_eq!(first["response"], "assault_rate");
-    assert_eq!(first["rows_used"], 62);
+    let doc = sample_fit("streetlight_outages", "LK-33");
+    assert_eq!(first["response"], "assault_rate_per_10k");
+    assert_eq!(first["rows_used"], doc.rows_used);
     assert_eq!(first["page"], "/analyses/demo");
     assert_eq!(first["fit"], "/api/analyses/demo/fit");
 }
