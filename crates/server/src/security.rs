@@ -16,6 +16,10 @@
 //!    token from the printed link through a same-origin POST; tokens and sessions are compared
 //!    in constant time.
 //!
+//! 4. **Audience sessions** (`--share` only): the printed audience link carries a second token
+//!    whose session is read-only. Any state-changing request from it gets 403, and pages render
+//!    in read-only mode (forms that post are hidden; see [`read_only`]).
+//!
 //! No GET handler anywhere changes state; the token exchange is a POST for that reason.
 
 use std::collections::VecDeque;
@@ -117,11 +121,31 @@ pub struct SecurityConfig {
     limits: Limits,
 }
 
-/// Sharing on the local network: the address shown in the link and the token it carries.
+/// Sharing on the local network: the address shown in the links and the tokens they carry.
 #[derive(Debug, Clone)]
 struct Share {
     address: IpAddr,
     token: Token,
+    audience: Option<Token>,
+}
+
+/// What a shared session may do.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Role {
+    /// A colleague who works on the analysis: every page and action.
+    Analyst,
+    /// The meeting audience: every page, read-only.
+    Audience,
+}
+
+tokio::task_local! {
+    static READ_ONLY: bool;
+}
+
+/// Whether the request being handled comes from a read-only audience session. Pages use it to
+/// hide forms that post; the guard refuses such posts in any case.
+pub fn read_only() -> bool {
+    READ_ONLY.try_with(|v| *v).unwrap_or(false)
 }
 
 impl SecurityConfig {
@@ -132,7 +156,19 @@ impl SecurityConfig {
 
     /// Sharing on the local network at `address`, admitting holders of `token`.
     pub fn shared(port: u16, address: IpAddr, token: Token) -> Self {
-        SecurityConfig { port, share: Some(Share { address, token }), limits: Limits::default() }
+        SecurityConfig {
+            port,
+            share: Some(Share { address, token, audience: None }),
+            limits: Limits::default(),
+        }
+    }
+
+    /// Adds the read-only audience token (sharing only; ignored otherwise).
+    pub fn with_audience_token(mut self, audience: Token) -> Self {
+        if let Some(share) = &mut self.share {
+            share.audience = Some(audience);
+        }
+        self
     }
 
     /// Replaces the size and time limits.
@@ -172,6 +208,19 @@ impl SecurityConfig {
         })
     }
 
+    /// The read-only link for a meeting audience, when sharing with an audience token.
+    pub fn audience_link(&self) -> Option<String> {
+        self.share.as_ref().and_then(|s| {
+            s.audience.as_ref().map(|a| {
+                format!(
+                    "http://{}/join?t={}",
+                    host_with_port(&s.address.to_string(), s.address.is_ipv6(), self.port),
+                    a.to_hex()
+                )
+            })
+        })
+    }
+
     /// Every `Host` header value accepted. Port 80 may also be written without the port.
     pub fn allowed_hosts(&self) -> Vec<String> {
         let mut names: Vec<(String, bool)> =
@@ -195,9 +244,18 @@ impl SecurityConfig {
         self.allowed_hosts().contains(&host)
     }
 
-    /// The sharing token, when sharing.
-    pub(crate) fn token(&self) -> Option<&Token> {
-        self.share.as_ref().map(|s| &s.token)
+    /// The role a joining token grants, compared in constant time against both tokens.
+    fn role_of(&self, candidate: &str) -> Option<Role> {
+        let share = self.share.as_ref()?;
+        let analyst = share.token.matches(candidate);
+        let audience = share.audience.as_ref().is_some_and(|a| a.matches(candidate));
+        if analyst {
+            Some(Role::Analyst)
+        } else if audience {
+            Some(Role::Audience)
+        } else {
+            None
+        }
     }
 }
 
@@ -210,7 +268,7 @@ fn host_with_port(name: &str, v6: bool, port: u16) -> String {
 #[derive(Debug, Clone)]
 pub struct Security {
     config: Arc<SecurityConfig>,
-    sessions: Arc<Mutex<VecDeque<Token>>>,
+    sessions: Arc<Mutex<VecDeque<(Token, Role)>>>,
 }
 
 impl Security {
@@ -224,37 +282,47 @@ impl Security {
         &self.config
     }
 
-    /// Checks a token from a join link or form, in constant time. Always false when not sharing.
-    pub fn token_matches(&self, candidate: &str) -> bool {
-        self.config.token().is_some_and(|t| t.matches(candidate))
+    /// The role a token from a join link or form grants, checked in constant time; `None`
+    /// for a wrong token and always when not sharing.
+    pub fn token_role(&self, candidate: &str) -> Option<Role> {
+        self.config.role_of(candidate)
     }
 
-    /// Starts a session and returns its secret value for the cookie.
-    pub fn open_session(&self) -> Result<Token, ServerError> {
+    /// Checks a token from a join link or form (either role).
+    pub fn token_matches(&self, candidate: &str) -> bool {
+        self.token_role(candidate).is_some()
+    }
+
+    /// Starts a session with `role` and returns its secret value for the cookie.
+    pub fn open_session(&self, role: Role) -> Result<Token, ServerError> {
         let session = Token::generate()?;
         let mut sessions =
             self.sessions.lock().map_err(|_| ServerError::Internal("session list poisoned".into()))?;
         if sessions.len() >= MAX_SESSIONS {
             sessions.pop_front();
         }
-        sessions.push_back(session.clone());
+        sessions.push_back((session.clone(), role));
         Ok(session)
     }
 
-    /// Whether the request's cookies carry a known session. Every stored session is compared
-    /// in constant time, so the time taken does not reveal how close a guess came.
-    pub fn has_session(&self, headers: &HeaderMap) -> bool {
-        let Some(candidate) = session_cookie(headers).and_then(|v| Token::from_hex(&v)) else {
-            return false;
-        };
-        let Ok(sessions) = self.sessions.lock() else {
-            return false;
-        };
-        let mut found = subtle::Choice::from(0u8);
-        for s in sessions.iter() {
-            found |= s.0.ct_eq(&candidate.0);
+    /// The role of the session the request's cookies carry, if it is known. Every stored
+    /// session is compared in constant time, so the time taken does not reveal how close a
+    /// guess came.
+    pub fn session_role(&self, headers: &HeaderMap) -> Option<Role> {
+        let candidate = session_cookie(headers).and_then(|v| Token::from_hex(&v))?;
+        let sessions = self.sessions.lock().ok()?;
+        let mut found = None;
+        for (s, role) in sessions.iter() {
+            if bool::from(s.0.ct_eq(&candidate.0)) {
+                found = Some(*role);
+            }
         }
-        bool::from(found)
+        found
+    }
+
+    /// Whether the request's cookies carry a known session.
+    pub fn has_session(&self, headers: &HeaderMap) -> bool {
+        self.session_role(headers).is_some()
     }
 
     /// The `Set-Cookie` value for a new session: HttpOnly, SameSite=Strict, whole site.
@@ -331,16 +399,25 @@ pub async fn guard(State(security): State<Security>, request: Request<Body>, nex
     {
         return refuse(reason);
     }
-    if config.is_shared()
-        && !open_without_session(request.uri().path())
-        && !security.has_session(request.headers())
-    {
-        return refuse(
-            "This wardcast session is shared, and this browser has not joined it yet. \
-             Open the link that wardcast printed (or that a colleague sent you) to join.",
-        );
+    let mut read_only = false;
+    if config.is_shared() && !open_without_session(request.uri().path()) {
+        match security.session_role(request.headers()) {
+            None => {
+                return refuse(
+                    "This wardcast session is shared, and this browser has not joined it yet. \
+                     Open the link that wardcast printed (or that a colleague sent you) to join.",
+                );
+            }
+            Some(Role::Audience) if is_state_changing(request.method()) => {
+                return refuse(
+                    "This is the read-only view for the meeting audience, so it cannot change \
+                     anything. Ask the analyst for the working link.",
+                );
+            }
+            Some(role) => read_only = role == Role::Audience,
+        }
     }
-    next.run(request).await
+    READ_ONLY.scope(read_only, next.run(request)).await
 }
 
 /// Finds this computer's address on the local network, for `--share`.

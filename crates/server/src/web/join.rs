@@ -92,10 +92,8 @@ pub async fn exchange(State(ctx): State<Ctx>, request: Request<Body>) -> Result<
     let body = super::read_body(request.into_body(), JOIN_FORM_LIMIT).await?;
     let token = form_urlencoded_field(&body, "t")
         .ok_or_else(|| ServerError::BadRequest("The joining form has no token field.".into()))?;
-    if !ctx.security.token_matches(&token) {
-        return Err(bad_link());
-    }
-    let session = ctx.security.open_session()?;
+    let role = ctx.security.token_role(&token).ok_or_else(bad_link)?;
+    let session = ctx.security.open_session(role)?;
     let cookie = Security::session_cookie_header(&session)?;
     let mut response = super::see_other("/");
     response.headers_mut().insert(header::SET_COOKIE, cookie);

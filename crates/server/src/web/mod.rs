@@ -254,7 +254,7 @@ pub async fn serve_with(config: ServeConfig, options: ServeOptions) -> Result<()
         .map_err(|source| ServerError::Bind { address: wanted.to_string(), source })?;
     let port = listener.local_addr().map_err(ServerError::Serve)?.port();
     let security = if config.share {
-        SecurityConfig::shared(port, ip, Token::generate()?)
+        SecurityConfig::shared(port, ip, Token::generate()?).with_audience_token(Token::generate()?)
     } else {
         SecurityConfig::local(port)
     }
@@ -265,6 +265,12 @@ pub async fn serve_with(config: ServeConfig, options: ServeOptions) -> Result<()
         println!();
         println!("    {link}");
         println!();
+        if let Some(audience) = security.audience_link() {
+            println!("For the meeting audience, this link opens every page read-only:");
+            println!();
+            println!("    {audience}");
+            println!();
+        }
         println!("Warning: plain HTTP on a local network can be read by anyone else on that network.");
         println!("Share only on a network you trust, and stop wardcast (Ctrl-C) when the meeting ends.");
     } else {

@@ -85,12 +85,22 @@ pub struct Layout {
     pub nav: Vec<NavItem>,
     /// The standing cautions, shown on every page that could steer an allocation.
     pub cautions: Vec<Caution>,
+    /// Whether the page is seen through the read-only audience link: forms that post are
+    /// hidden and a banner says so.
+    pub read_only: bool,
 }
 
 impl Layout {
     /// The frame for a page outside any analysis (no cautions, no section navigation).
     pub fn plain(title: impl Into<String>, shared: bool) -> Self {
-        Layout { title: title.into(), shared, analysis_name: None, nav: Vec::new(), cautions: Vec::new() }
+        Layout {
+            title: title.into(),
+            shared,
+            analysis_name: None,
+            nav: Vec::new(),
+            cautions: Vec::new(),
+            read_only: crate::security::read_only(),
+        }
     }
 
     /// The frame for a page of an analysis: section navigation and the cautions panel.
@@ -110,6 +120,7 @@ impl Layout {
             analysis_name: Some(name.to_owned()),
             nav,
             cautions: standing_cautions(),
+            read_only: crate::security::read_only(),
         }
     }
 }

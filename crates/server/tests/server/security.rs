@@ -457,3 +457,71 @@ async fn a_stalled_body_times_out() {
     assert_security_headers(&response, "a timeout");
     drop(tx);
 }
+
+/// Joins a shared app with `token` and returns the session cookie's `name=value`.
+async fn join_with(app: &axum::Router, token: &str) -> String {
+    let post = join_post(LAN_HOST)
+        .header("sec-fetch-site", "same-origin")
+        .header(header::ORIGIN, "http://192.0.2.10:7878")
+        .body(form(token))
+        .expect("request");
+    let answer = check(app, post, StatusCode::SEE_OTHER, "token exchange").await;
+    header_of(&answer, "set-cookie").split(';').next().expect("name=value").to_owned()
+}
+
+#[tokio::test]
+async fn the_audience_link_opens_every_page_read_only() {
+    let audience = Token::from_hex(&"cd".repeat(32)).expect("64 hex digits");
+    let config = SecurityConfig::shared(PORT, LAN, test_token()).with_audience_token(audience.clone());
+    assert_eq!(
+        config.audience_link().expect("audience link"),
+        format!("http://192.0.2.10:7878/join?t={}", audience.to_hex())
+    );
+    assert_ne!(config.audience_link(), config.share_link(), "two different links");
+    assert!(SecurityConfig::shared(PORT, LAN, test_token()).audience_link().is_none());
+    let app = router(sample_state(), config);
+
+    let viewer = join_with(&app, &audience.to_hex()).await;
+    let analyst = join_with(&app, &test_token().to_hex()).await;
+    let request = |method: Method, path: &str, cookie: &str| {
+        Request::builder()
+            .method(method)
+            .uri(path)
+            .header(header::HOST, LAN_HOST)
+            .header(header::COOKIE, cookie)
+            .header("sec-fetch-site", "same-origin")
+            .header(header::ORIGIN, "http://192.0.2.10:7878")
+            .header(header::CONTENT_TYPE, "application/x-www-form-urlencoded")
+            .body(Body::from("key=LK-47&reason=arena"))
+            .expect("request")
+    };
+
+    // The audience reads every page, with the read-only banner and the class that hides
+    // posting forms.
+    let page =
+        check(&app, request(Method::GET, "/analyses/demo", &viewer), StatusCode::OK, "audience GET").await;
+    let html = text(page).await;
+    assert!(html.contains("<body class=\"read-only\">"));
+    assert!(html.contains("Read-only view."));
+    check(&app, request(Method::GET, "/api/analyses/demo/fit", &viewer), StatusCode::OK, "audience API GET")
+        .await;
+
+    // Any state-changing request from the audience is refused before it reaches a handler,
+    // whatever the route.
+    for path in ["/analyses/demo/exclude", "/jobs/j1/cancel", "/api/analyses", "/nowhere"] {
+        for method in [Method::POST, Method::PUT, Method::DELETE] {
+            let refused =
+                check(&app, request(method.clone(), path, &viewer), StatusCode::FORBIDDEN, path).await;
+            assert!(text(refused).await.contains("read-only view"), "{method} {path}");
+        }
+    }
+
+    // The analyst's session is not read-only.
+    let page =
+        check(&app, request(Method::GET, "/analyses/demo", &analyst), StatusCode::OK, "analyst GET").await;
+    let html = text(page).await;
+    assert!(html.contains("<body>"));
+    assert!(!html.contains("Read-only view."));
+    let answer = send(&app, request(Method::POST, "/nowhere", &analyst)).await;
+    assert_eq!(answer.status(), StatusCode::NOT_FOUND, "an analyst's post reaches the router");
+}
