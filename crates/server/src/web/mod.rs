@@ -23,6 +23,7 @@
 
 mod api;
 pub mod areas;
+pub mod assets;
 pub mod brief;
 pub mod contenders;
 pub mod demo;
@@ -117,18 +118,19 @@ where
         .map_err(|e| ServerError::Internal(format!("a background computation stopped: {e}")))?
 }
 
-/// Where the static assets are: the repository's `assets/` folder.
-pub fn default_assets_dir() -> PathBuf {
-    PathBuf::from(concat!(env!("CARGO_MANIFEST_DIR"), "/../../assets"))
-}
-
-/// The router with the repository's assets folder. Tests drive it with `oneshot`, no socket.
+/// The router with the assets compiled into the binary. Tests drive it with `oneshot`, no
+/// socket.
 pub fn router(state: AppState, security: SecurityConfig) -> Router {
-    router_with_assets(state, security, default_assets_dir())
+    build_router(state, security, None)
 }
 
-/// The router serving static assets from `assets`.
+/// The router serving static assets from the folder `assets` instead (for working on the
+/// stylesheet without rebuilding).
 pub fn router_with_assets(state: AppState, security: SecurityConfig, assets: PathBuf) -> Router {
+    build_router(state, security, Some(assets))
+}
+
+fn build_router(state: AppState, security: SecurityConfig, assets: Option<PathBuf>) -> Router {
     let limits = security.limits();
     let security = Security::new(security);
     let ctx = Ctx { app: state, security: security.clone() };
@@ -147,9 +149,12 @@ pub fn router_with_assets(state: AppState, security: SecurityConfig, assets: Pat
         .merge(whatif::routes())
         .merge(brief::routes())
         .merge(jobs::routes())
-        .nest_service("/assets", ServeDir::new(assets))
         .fallback(not_found)
         .with_state(ctx);
+    let routes = match assets {
+        Some(dir) => routes.nest_service("/assets", ServeDir::new(dir)),
+        None => routes.route("/assets/{*name}", get(assets::serve)),
+    };
     let header = |name: &'static str, value: &'static str| {
         SetResponseHeaderLayer::overriding(HeaderName::from_static(name), HeaderValue::from_static(value))
     };
@@ -208,20 +213,20 @@ pub struct ServeOptions {
     pub state: AppState,
     /// Body size and time limits.
     pub limits: Limits,
-    /// The static assets folder.
-    pub assets_dir: PathBuf,
+    /// A folder to serve static assets from instead of the copies compiled into the binary.
+    pub assets_dir: Option<PathBuf>,
     /// The LAN address to share on; found automatically when `None`.
     pub share_address: Option<IpAddr>,
 }
 
 impl Default for ServeOptions {
-    /// An empty workspace, default limits, the repository's assets, the LAN address found
+    /// An empty workspace, default limits, the embedded assets, the LAN address found
     /// automatically.
     fn default() -> Self {
         ServeOptions {
             state: AppState::new(),
             limits: Limits::default(),
-            assets_dir: default_assets_dir(),
+            assets_dir: None,
             share_address: None,
         }
     }
@@ -278,7 +283,7 @@ pub async fn serve_with(config: ServeConfig, options: ServeOptions) -> Result<()
     }
     println!("Press Ctrl-C to stop.");
 
-    let app = router_with_assets(options.state, security, options.assets_dir);
+    let app = build_router(options.state, security, options.assets_dir);
     axum::serve(listener, app)
         .with_graceful_shutdown(async {
             // If the signal handler cannot be installed, run until the process is killed.

@@ -243,3 +243,30 @@ async fn the_demo_starts_fitted_and_described_in_words() {
     let start = page(&app, "/", StatusCode::OK).await;
     assert!(start.contains(&format!("<a href=\"/analyses/{DEMO_ID}\">Larkmoor demo</a>")));
 }
+
+#[tokio::test]
+async fn every_asset_in_the_folder_is_compiled_in_and_served() {
+    // The fonts go into the PDF brief, not to the browser.
+    let folder = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../../assets");
+    let mut files = Vec::new();
+    for entry in std::fs::read_dir(&folder).expect("assets folder") {
+        let entry = entry.expect("entry");
+        if entry.file_type().expect("type").is_file() {
+            files.push(entry.file_name().to_string_lossy().into_owned());
+        }
+    }
+    files.sort();
+    let mut embedded: Vec<String> = wardcast::web::assets::ASSETS.iter().map(|a| a.name.to_owned()).collect();
+    embedded.sort();
+    assert_eq!(files, embedded, "assets/ and the embedded list agree");
+    let app = local_app();
+    for asset in wardcast::web::assets::ASSETS {
+        let on_disk = std::fs::read(folder.join(asset.name)).expect("file");
+        let response = send(&app, get(&format!("/assets/{}", asset.name))).await;
+        assert_eq!(response.status(), StatusCode::OK, "{}", asset.name);
+        assert_eq!(header_of(&response, "content-type"), asset.content_type);
+        assert_eq!(text(response).await.into_bytes(), on_disk, "{} is served as it is on disk", asset.name);
+    }
+    let response = send(&app, get("/assets/../Cargo.toml")).await;
+    assert_ne!(response.status(), StatusCode::OK, "no way out of the assets");
+}
