@@ -366,9 +366,15 @@ pub fn cross_site_check(config: &SecurityConfig, headers: &HeaderMap) -> Result<
             return Err("This request came from another site, so it was refused.");
         }
     }
+    // Under `Referrer-Policy: no-referrer` a browser sends `Origin: null` with its own
+    // same-origin form posts; `Sec-Fetch-Site: same-origin`, which no page can forge, vouches
+    // for those. A `null` origin without it is still refused.
+    let vouched =
+        fetch_site.is_some_and(|s| s.to_str().unwrap_or("").trim().eq_ignore_ascii_case("same-origin"));
     if let Some(origin) = headers.get(header::ORIGIN) {
         let origin = origin.to_str().unwrap_or("").trim().to_ascii_lowercase();
-        let allowed = origin.strip_prefix("http://").is_some_and(|host| config.host_allowed(host));
+        let allowed = (vouched && origin == "null")
+            || origin.strip_prefix("http://").is_some_and(|host| config.host_allowed(host));
         if !allowed {
             return Err("This request came from a page on another origin, so it was refused.");
         }

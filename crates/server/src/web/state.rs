@@ -20,6 +20,7 @@ use wardcast_report::brief::{DatasetChecksum, ModelChoice};
 use wardcast_store::Store;
 
 use super::jobs::Jobs;
+use super::tables::TableShelf;
 use crate::analysis::Fitted;
 use crate::error::{Result, ServerError};
 
@@ -347,6 +348,7 @@ pub struct AppState {
     analyses: Arc<RwLock<BTreeMap<String, Arc<Analysis>>>>,
     jobs: Jobs,
     store: Option<Arc<Mutex<Store>>>,
+    tables: TableShelf,
 }
 
 impl AppState {
@@ -369,6 +371,11 @@ impl AppState {
     /// The background jobs (subset searches, cross-validation, transformation searches).
     pub fn jobs(&self) -> &Jobs {
         &self.jobs
+    }
+
+    /// The tables uploaded or joined in this session (the Tables pages).
+    pub fn tables(&self) -> &TableShelf {
+        &self.tables
     }
 
     /// Adds an analysis, replacing one with the same id, and returns it shared.
