@@ -31,9 +31,13 @@ macro_rules! asset {
     };
 }
 
-/// Every asset the pages use.
-pub const ASSETS: &[Asset] =
-    &[asset!("style.css", "text/css; charset=utf-8"), asset!("icon.svg", "image/svg+xml")];
+/// Every asset the pages use, one per line.
+#[rustfmt::skip]
+pub const ASSETS: &[Asset] = &[
+    asset!("style.css", "text/css; charset=utf-8"),
+    asset!("icon.svg", "image/svg+xml"),
+    asset!("tables.css", "text/css; charset=utf-8"),
+];
 
 /// The asset at `name`, if there is one.
 pub fn find(name: &str) -> Option<&'static Asset> {
