@@ -37,6 +37,7 @@ pub const ASSETS: &[Asset] = &[
     asset!("style.css", "text/css; charset=utf-8"),
     asset!("icon.svg", "image/svg+xml"),
     asset!("tables.css", "text/css; charset=utf-8"),
+    asset!("setup.css", "text/css; charset=utf-8"),
 ];
 
 /// The asset at `name`, if there is one.

@@ -232,13 +232,14 @@ impl Default for ServeOptions {
     }
 }
 
-/// Loads the Larkmoor demo into a workspace kept in `store` (when given) and serves it; see
-/// [`serve_with`].
+/// Loads the Larkmoor demo into a workspace kept in `store` (when given: the demo table is
+/// stored and the saved analyses are re-fitted, see [`demo::demo_state_in_store`]) and serves
+/// it; see [`serve_with`].
 pub async fn serve(config: ServeConfig, store: Option<wardcast_store::Store>) -> Result<()> {
-    let mut state = blocking(demo::demo_state).await?;
-    if let Some(store) = store {
-        state = state.with_store(store);
-    }
+    let state = match store {
+        Some(store) => blocking(move || demo::demo_state_in_store(store)).await?,
+        None => blocking(demo::demo_state).await?,
+    };
     serve_with(config, ServeOptions { state, ..ServeOptions::default() }).await
 }
 
