@@ -8,9 +8,11 @@
 use askama::Template;
 use axum::extract::{Path, State};
 use axum::response::Response;
+use wardcast_contract::checks::{ChecksDocument, Outcome};
 use wardcast_contract::fit::{CoefficientDoc, FitDocument};
 use wardcast_contract::numbers::Number;
 use wardcast_contract::spec::TransformSpec;
+use wardcast_engine::dist;
 use wardcast_report::svg::{Axis, Chart, EffectPlot, EffectRow as PlotRow};
 
 use super::Ctx;
@@ -32,11 +34,13 @@ pub struct Figure {
 }
 
 impl Figure {
-    fn new(x: f64) -> Self {
+    /// A finite or non-finite number, rounded for display.
+    pub(crate) fn new(x: f64) -> Self {
         Figure { text: fmt_num(x), raw: if x.is_finite() { format!("{x:?}") } else { String::new() } }
     }
 
-    fn from_number(n: Number) -> Self {
+    /// A contract number, which may be infinite or undefined.
+    pub(crate) fn from_number(n: Number) -> Self {
         match n {
             Number::Finite(x) => Figure::new(x),
             Number::PosInfinity => Figure { text: "infinite".into(), raw: "Infinity".into() },
@@ -67,6 +71,22 @@ pub struct EffectRow {
     pub p_text: String,
     /// Whether the interval includes zero.
     pub includes_zero: bool,
+    /// The HC3 (heteroscedasticity-consistent) standard error and the interval built on it,
+    /// when the checks could compute them.
+    pub hc3: Option<RobustFigures>,
+}
+
+/// A coefficient's HC3 standard error with the interval `b ± t·se_HC3` at the model's level.
+#[derive(Debug, Clone)]
+pub struct RobustFigures {
+    /// The HC3 standard error.
+    pub std_error: Figure,
+    /// The interval's lower end.
+    pub low: Figure,
+    /// The interval's upper end.
+    pub high: Figure,
+    /// HC3 over the classical standard error, worded (e.g. "1.42 times").
+    pub ratio_text: String,
 }
 
 /// A fit statistic with its meaning in words.
@@ -116,6 +136,8 @@ pub struct EffectsPage {
     pub id: String,
     /// The opening line.
     pub lede: String,
+    /// The plural noun for the areas.
+    pub areas: String,
     /// The interval level in percent, e.g. "95".
     pub level_pct: String,
     /// The effects, in spec order.
@@ -142,6 +164,11 @@ pub struct EffectsPage {
     pub notes: Vec<String>,
     /// The likelihood convention.
     pub likelihood_convention: String,
+    /// What the HC3 standard errors say beside the classical ones; empty when they are not
+    /// available (the reason is then in `robust_missing`).
+    pub robust_note: String,
+    /// Why the HC3 standard errors are missing, when they are.
+    pub robust_missing: String,
 }
 
 fn p_of(n: Number) -> Option<f64> {
@@ -192,6 +219,7 @@ impl EffectsPage {
                 t_value: Figure::from_number(c.t_value),
                 p_text: fmt_p(p_of(c.p_value)),
                 includes_zero: c.interval.low <= 0.0 && c.interval.high >= 0.0,
+                hc3: None,
             }
         };
         let effects = slopes.iter().zip(&kinds).map(|(c, k)| row(c, k)).collect();
@@ -305,6 +333,7 @@ impl EffectsPage {
                 Section::Effects,
             ),
             id: analysis.id().to_owned(),
+            areas: areas.to_owned(),
             lede: format!(
                 "Comparisons of {} between {areas} that differ in the indicators, across {n} {areas}.",
                 in_sentence(&response.label)
@@ -330,9 +359,73 @@ impl EffectsPage {
             ss_basis,
             notes: fit.notes.clone(),
             likelihood_convention: fit.likelihood.convention.clone(),
+            robust_note: String::new(),
+            robust_missing: "The robust standard errors have not been computed for this page.".into(),
         }
     }
+
+    /// Adds the HC3 standard errors of the checks document beside the classical ones, with
+    /// intervals `b ± t_{1−α/2, n−p}·se_HC3` on the same critical value as the classical ones.
+    pub fn with_robust(mut self, fit: &FitDocument, checks: &ChecksDocument) -> Self {
+        let robust = match &checks.robust_errors {
+            Outcome::Ok { result } => result,
+            Outcome::Unavailable { reason } => {
+                self.robust_missing = format!("Robust (HC3) standard errors are not available: {reason}.");
+                return self;
+            }
+        };
+        let level = fit.spec.level;
+        let q = dist::t_isf(0.5 * (1.0 - level), fit.df_residual as f64);
+        let attach = |row: &mut EffectRow| {
+            let Some(r) = robust.coefficients.iter().find(|r| r.term == row.term) else {
+                return;
+            };
+            let Some(c) = fit.coefficients.iter().find(|c| c.term == row.term) else {
+                return;
+            };
+            let ratio = r.hc3 / r.classical;
+            row.hc3 = Some(RobustFigures {
+                std_error: Figure::new(r.hc3),
+                low: Figure::new(c.estimate - q * r.hc3),
+                high: Figure::new(c.estimate + q * r.hc3),
+                ratio_text: if ratio.is_finite() {
+                    format!("{} times", fmt_num(ratio))
+                } else {
+                    "undefined".into()
+                },
+            });
+        };
+        self.effects.iter_mut().for_each(attach);
+        if let Some(i) = self.intercept.as_mut() {
+            attach(i);
+        }
+        let largest = robust
+            .coefficients
+            .iter()
+            .filter(|r| r.classical > 0.0 && r.hc3 > 0.0)
+            .map(|r| r.hc3 / r.classical)
+            .fold(1.0_f64, |m, x| if (x.ln()).abs() > m.ln().abs() { x } else { m });
+        let material =
+            !(1.0 / MATERIAL_RATIO..=MATERIAL_RATIO).contains(&largest) || robust.verdict.level == "problem";
+        self.robust_note = format!(
+            "HC3 standard errors (MacKinnon & White 1985) stay valid when the spread of the residuals \
+             differs between {areas}; the classical ones assume it does not. They differ materially when \
+             one is more than {} times the other, or when a conclusion changes. Here the ratio of HC3 to \
+             classical furthest from 1 is {}, and the difference is {}. {}",
+            fmt_prose(MATERIAL_RATIO),
+            fmt_prose(largest),
+            if material { "material: prefer the HC3 intervals" } else { "small" },
+            robust.verdict.meaning,
+            areas = self.areas,
+        );
+        self.robust_missing.clear();
+        self
+    }
 }
+
+/// HC3 and classical standard errors "differ materially" when their ratio leaves
+/// [1/1.2, 1.2] (our rule of thumb, stated on the page).
+const MATERIAL_RATIO: f64 = 1.2;
 
 /// The interval chart: every effect on one axis, each scaled to the comparison its sentence
 /// makes (the column's step, or a doubling for a logged indicator), so all rows share the
@@ -455,6 +548,7 @@ fn overall_fact(fit: &FitDocument, response: &str) -> Fact {
 
 /// `GET /analyses/{id}`: the Effects page.
 pub async fn page(State(ctx): State<Ctx>, Path(id): Path<String>) -> Result<Response> {
-    let analysis = ctx.analysis(&id)?;
-    Ok(render(&EffectsPage::build(&analysis, ctx.shared())))
+    let (analysis, checked) = ctx.checked(&id).await?;
+    let page = EffectsPage::build(&analysis, ctx.shared()).with_robust(analysis.fit(), &checked.document);
+    Ok(render(&page))
 }

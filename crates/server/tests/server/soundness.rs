@@ -1,1 +1,391 @@
-//! Router tests of the soundness routes.
+//! Router tests of the soundness routes: statuses, the page's numbers against the checks
+//! document, the refit comparison against an independent refit, escaping, and the HC3 standard
+//! errors on the Effects page.
+
+use std::sync::Arc;
+
+use axum::Router;
+use axum::http::StatusCode;
+use wardcast::security::SecurityConfig;
+use wardcast::web::demo::{DEMO_ID, demo_spec, demo_state};
+use wardcast::web::{Analysis, AnalysisParts, AppState, Source, router};
+use wardcast_contract::checks::{ChecksDocument, Outcome};
+use wardcast_contract::fit::FitDocument;
+use wardcast_contract::spec::ExclusionSpec;
+use wardcast_engine::Table;
+
+use crate::{
+    NASTY, NASTY_ESCAPED, PORT, get, header_of, local_app, sample_glossary, sample_spec, send, text,
+};
+
+/// The demo workspace served locally.
+fn demo_app() -> Router {
+    router(demo_state().expect("the demo loads"), SecurityConfig::local(PORT))
+}
+
+/// The demo's checks document, computed without the web layer.
+fn demo_checks() -> ChecksDocument {
+    let table = wardcast::demo::larkmoor_table().expect("demo table");
+    wardcast::analysis::Fitted::new(&table, &demo_spec()).expect("demo fit").checks_document()
+}
+
+/// Fetches `path`, checks the status, the content type and that the body contains `needle`;
+/// returns the body.
+async fn check(app: &Router, path: &str, status: StatusCode, needle: &str) -> String {
+    let response = send(app, get(path)).await;
+    assert_eq!(response.status(), status, "GET {path}");
+    let json = path.starts_with("/api/");
+    let content_type = header_of(&response, "content-type");
+    if json {
+        assert_eq!(content_type, "application/json", "GET {path}");
+    } else {
+        assert_eq!(content_type, "text/html; charset=utf-8", "GET {path}");
+    }
+    let body = text(response).await;
+    assert!(body.contains(needle), "GET {path} should contain {needle:?}");
+    if json && status != StatusCode::OK {
+        let v: serde_json::Value = serde_json::from_str(&body).expect("a JSON error");
+        assert_eq!(v["status"], status.as_u16(), "GET {path}");
+    }
+    body
+}
+
+/// Every `<data value="…">` on a page, in order.
+fn data_values(html: &str) -> Vec<f64> {
+    html.split("<data value=\"")
+        .skip(1)
+        .filter_map(|rest| rest.split('"').next())
+        .filter(|v| !v.is_empty())
+        .map(|v| v.parse::<f64>().expect("a number in data value"))
+        .collect()
+}
+
+/// Whether the page shows `x` in a `<data value>` within 1e-12 (relative to its size, at least 1).
+fn shows(values: &[f64], x: f64) -> bool {
+    values.iter().any(|v| (v - x).abs() <= 1e-12 * x.abs().max(1.0))
+}
+
+fn assert_shows(values: &[f64], x: f64, what: &str) {
+    assert!(shows(values, x), "the page shows {what} = {x:?}");
+}
+
+/// The part of `html` from `start` to the next occurrence of `end`.
+fn between<'a>(html: &'a str, start: &str, end: &str) -> &'a str {
+    let from = html.find(start).unwrap_or_else(|| panic!("{start:?} is on the page"));
+    let rest = &html[from..];
+    &rest[..rest.find(end).unwrap_or(rest.len())]
+}
+
+#[tokio::test]
+async fn each_route_answers_with_its_status() {
+    let app = local_app();
+    let long = "K".repeat(201);
+    let cases: Vec<(String, StatusCode, &str)> = vec![
+        ("/analyses/demo/soundness".into(), StatusCode::OK, "Whether the model&#39;s assumptions hold"),
+        ("/analyses/nothing-here/soundness".into(), StatusCode::NOT_FOUND, "no analysis called"),
+        (
+            "/analyses/Bad_Id/soundness".into(),
+            StatusCode::BAD_REQUEST,
+            "lowercase letters, digits and hyphens",
+        ),
+        ("/api/analyses/demo/checks".into(), StatusCode::OK, "\"kind\":\"checks\""),
+        ("/api/analyses/nothing-here/checks".into(), StatusCode::NOT_FOUND, "no analysis called"),
+        ("/api/analyses/Bad_Id/checks".into(), StatusCode::BAD_REQUEST, "lowercase letters"),
+        (
+            "/analyses/demo/soundness/without?key=LK-47".into(),
+            StatusCode::OK,
+            "The model with and without LK-47",
+        ),
+        ("/analyses/demo/soundness/without".into(), StatusCode::BAD_REQUEST, "Name the area to leave out"),
+        (
+            "/analyses/demo/soundness/without?key=".into(),
+            StatusCode::BAD_REQUEST,
+            "Name the area to leave out",
+        ),
+        ("/analyses/demo/soundness/without?key=%20%20".into(), StatusCode::BAD_REQUEST, "Name the area"),
+        (
+            "/analyses/demo/soundness/without?key=LK%0A47".into(),
+            StatusCode::BAD_REQUEST,
+            "control characters",
+        ),
+        (format!("/analyses/demo/soundness/without?key={long}"), StatusCode::BAD_REQUEST, "at most 200"),
+        ("/analyses/demo/soundness/without?key=LK-99".into(), StatusCode::NOT_FOUND, "No area keyed"),
+        // The sample model drops the district keyed LK-33 (missing vacancy): it is in the table
+        // but not among the rows used, so there is nothing to leave out.
+        (
+            "/analyses/demo/soundness/without?key=LK-33".into(),
+            StatusCode::NOT_FOUND,
+            "among the rows this model uses",
+        ),
+        (
+            "/analyses/nothing-here/soundness/without?key=LK-47".into(),
+            StatusCode::NOT_FOUND,
+            "no analysis called",
+        ),
+        (
+            "/api/analyses/demo/soundness/without?key=LK-47".into(),
+            StatusCode::OK,
+            "\"kind\":\"refit_without\"",
+        ),
+        (
+            "/api/analyses/demo/soundness/without".into(),
+            StatusCode::BAD_REQUEST,
+            "Name the area to leave out",
+        ),
+        ("/api/analyses/demo/soundness/without?key=LK-99".into(), StatusCode::NOT_FOUND, "No area keyed"),
+    ];
+    for (path, status, needle) in &cases {
+        check(&app, path, *status, needle).await;
+    }
+}
+
+#[tokio::test]
+async fn the_api_serves_the_checks_document_as_the_command_line_prints_it() {
+    let app = demo_app();
+    let body = check(&app, &format!("/api/analyses/{DEMO_ID}/checks"), StatusCode::OK, "checks").await;
+    // Compared as text, so the check does not depend on how a JSON reader parses floats.
+    assert_eq!(body, serde_json::to_string(&demo_checks()).expect("json"));
+}
+
+#[tokio::test]
+async fn the_page_shows_the_numbers_of_the_checks_document() {
+    let app = demo_app();
+    let html =
+        check(&app, &format!("/analyses/{DEMO_ID}/soundness"), StatusCode::OK, "The verdicts in brief").await;
+    let doc = demo_checks();
+    let values = data_values(&html);
+
+    // Shapiro-Wilk W and p, beside the quantile chart.
+    let Outcome::Ok { result: sw } = &doc.normality.shapiro_wilk else { panic!("Shapiro-Wilk computed") };
+    let shapiro = data_values(between(&html, "<p class=\"shapiro\">", "</p>"));
+    assert_eq!(shapiro, vec![sw.w, sw.p_value], "Shapiro-Wilk W and p exactly");
+
+    // Every VIF and its R², in the VIF table.
+    let Outcome::Ok { result: vif } = &doc.collinearity.vif else { panic!("VIFs computed") };
+    let table = data_values(between(&html, "<table class=\"numbers vif\">", "</table>"));
+    let expected: Vec<f64> =
+        vif.entries.iter().flat_map(|e| [e.vif.as_f64().expect("finite VIF"), e.r_squared]).collect();
+    assert_eq!(table, expected, "the VIF table in document order");
+
+    // LK-47: leverage, Cook's distance, its F percentile, DFFITS, studentized deleted residual.
+    let Outcome::Ok { result: inf } = &doc.influence else { panic!("influence computed") };
+    let lk47 = inf.rows.iter().find(|r| r.key == "LK-47").expect("LK-47 is a row");
+    assert!(lk47.flagged && inf.flagged.contains(&"LK-47".to_owned()));
+    let row = data_values(between(&html, "<th scope=\"row\">LK-47</th>", "</tr>"));
+    let cooks = lk47.cooks_d.as_f64().expect("Cook's D");
+    assert_eq!(row[0], lk47.hat, "leverage of LK-47");
+    assert_eq!(row[1], cooks, "Cook's distance of LK-47");
+    assert_shows(
+        &row,
+        lk47.cooks_percentile.as_f64().expect("percentile") * 100.0,
+        "the F percentile of LK-47",
+    );
+    assert_eq!(row[3], lk47.dffits.as_f64().expect("DFFITS"), "DFFITS of LK-47");
+    assert_eq!(row[4], lk47.studentized_deleted.as_f64().expect("residual"), "residual of LK-47");
+    // One flagged row per flagged key, each with its refit link and exclusion form.
+    for key in &inf.flagged {
+        assert!(html.contains(&format!("<th scope=\"row\">{key}</th>")), "{key} is listed");
+        assert!(
+            html.contains(&format!("href=\"/analyses/{DEMO_ID}/soundness/without?key={key}\"")),
+            "{key} link"
+        );
+        assert!(
+            html.contains(&format!("<input type=\"hidden\" name=\"key\" value=\"{key}\">")),
+            "{key} form"
+        );
+    }
+    assert_eq!(html.matches("action=\"/analyses/larkmoor/exclude\"").count(), inf.flagged.len());
+    assert_eq!(
+        html.matches("<input type=\"hidden\" name=\"then\" value=\"soundness\">").count(),
+        inf.flagged.len()
+    );
+    assert_eq!(html.matches("name=\"reason\" required").count(), inf.flagged.len());
+
+    // Every verdict of the summary is on the page with its statistic and p-value.
+    for nv in &doc.summary {
+        assert!(html.contains(&askama_escape(&nv.verdict.meaning)), "the sentence of {}", nv.check);
+        if let Some(s) = nv.verdict.statistic.as_f64() {
+            assert_shows(&values, s, &format!("the statistic of {}", nv.check));
+        }
+        if let Some(p) = nv.verdict.p_value.as_f64() {
+            assert_shows(&values, p, &format!("the p-value of {}", nv.check));
+        }
+    }
+
+    // Added-variable charts: one per predictor term, each with its coefficient.
+    for av in &doc.linearity.added_variable {
+        let Outcome::Ok { result } = &av.check else { panic!("added-variable plot of {}", av.name) };
+        assert_shows(&values, result.coefficient, &format!("the coefficient of {}", av.name));
+        assert!(html.contains(&format!("{}, with the other terms taken out", av.name)));
+    }
+    assert!(html.matches("<svg").count() >= 4 + doc.linearity.added_variable.len(), "the charts are drawn");
+
+    // Condition indices and the transformation search.
+    let Outcome::Ok { result: cond } = &doc.collinearity.condition else { panic!("condition computed") };
+    for ix in &cond.indices {
+        assert_shows(&values, *ix, "a condition index");
+    }
+    let Outcome::Ok { result: power } = &doc.transformations.response_power else { panic!("Box-Cox") };
+    assert_shows(&values, power.lambda_hat, "λ̂");
+    let Outcome::Ok { result: search } = &doc.transformations.search else { panic!("search computed") };
+    for c in &search.candidates {
+        if let Some(rmse) = c.cv_rmse.as_f64() {
+            assert_shows(&values, rmse, &format!("the CV RMSE of {}", c.label));
+        }
+    }
+    assert!(html.contains("href=\"/analyses/larkmoor/data\""), "the Data page is linked for transforms");
+    assert!(html.contains("never change the model"));
+
+    // The cautions panel and no inline script or style.
+    assert!(html.contains("Read before deciding"));
+    assert!(!html.contains("<script") && !html.contains("style=") && !html.contains("<style"));
+}
+
+/// Escapes like the templates do, for finding user-free engine sentences in a page.
+fn askama_escape(s: &str) -> String {
+    s.replace('&', "&#38;")
+        .replace('<', "&#60;")
+        .replace('>', "&#62;")
+        .replace('"', "&#34;")
+        .replace('\'', "&#39;")
+}
+
+/// The demo fit without LK-47, computed independently: the spec excludes the row.
+fn independent_refit() -> FitDocument {
+    let table = wardcast::demo::larkmoor_table().expect("demo table");
+    let mut spec = demo_spec();
+    spec.exclusions.push(ExclusionSpec { key: "LK-47".into(), reason: "arena district".into() });
+    wardcast::analysis::Fitted::new(&table, &spec).expect("refit").fit_document().expect("document")
+}
+
+fn close(a: f64, b: f64) -> bool {
+    (a - b).abs() <= 1e-12 * b.abs().max(1.0)
+}
+
+#[tokio::test]
+async fn the_comparison_without_lk47_equals_an_independent_refit() {
+    let app = demo_app();
+    let refit = independent_refit();
+    let original =
+        wardcast::analysis::Fitted::new(&wardcast::demo::larkmoor_table().expect("table"), &demo_spec())
+            .expect("fit")
+            .fit_document()
+            .expect("document");
+    assert_eq!(refit.rows_used + 1, original.rows_used);
+
+    let path = format!("/analyses/{DEMO_ID}/soundness/without?key=LK-47");
+    let html = check(&app, &path, StatusCode::OK, "Coefficients side by side").await;
+    assert!(html.contains("Read before deciding"), "the cautions panel is on the comparison page");
+    for (c, d) in original.coefficients.iter().zip(&refit.coefficients) {
+        assert_eq!(c.term, d.term);
+        let row = data_values(between(&html, &format!("<th scope=\"row\">{}</th>", c.term), "</tr>"));
+        let want = [c.estimate, c.interval.low, c.interval.high, d.estimate, d.interval.low, d.interval.high];
+        for (i, (got, want)) in row.iter().zip(want).enumerate() {
+            assert!(close(*got, want), "{} column {i}: {got} vs {want}", c.term);
+        }
+        assert!(close(row[6], d.estimate - c.estimate), "{}: the change", c.term);
+    }
+    let stats = data_values(between(&html, "<h2>Fit side by side</h2>", "</table>"));
+    let want = [
+        original.rows_used as f64,
+        refit.rows_used as f64,
+        original.r_squared,
+        refit.r_squared,
+        original.adj_r_squared,
+        refit.adj_r_squared,
+        original.residual_sd,
+        refit.residual_sd,
+    ];
+    assert_eq!(stats.len(), want.len());
+    for (got, want) in stats.iter().zip(want) {
+        assert!(close(*got, want), "fit statistic {got} vs {want}");
+    }
+
+    // The JSON twin carries the same refit, and nothing was changed.
+    let body =
+        check(&app, &format!("/api/analyses/{DEMO_ID}/soundness/without?key=LK-47"), StatusCode::OK, "LK-47")
+            .await;
+    let v: serde_json::Value = serde_json::from_str(&body).expect("json");
+    assert_eq!(v["without"]["rows_used"], refit.rows_used);
+    for (j, d) in refit.coefficients.iter().enumerate() {
+        let got = v["without"]["coefficients"][j]["estimate"].as_f64().expect("estimate");
+        assert!(close(got, d.estimate), "JSON estimate of {}", d.term);
+    }
+    assert!(close(v["without"]["residual_sd"].as_f64().expect("sd"), refit.residual_sd));
+    assert_eq!(v["without"]["spec"]["exclusions"][0]["key"], "LK-47");
+    let fit = check(&app, &format!("/api/analyses/{DEMO_ID}/fit"), StatusCode::OK, "fit").await;
+    assert_eq!(fit, serde_json::to_string(&original).expect("json"), "the analysis is unchanged");
+}
+
+/// A workspace whose analysis is named `NASTY`, whose odd predictor column is named `NASTY`
+/// and whose arena district LK-47 is keyed `NASTY`.
+fn nasty_app() -> Router {
+    let base = crate::sample_table(NASTY, "LK-33");
+    let keys: Vec<String> =
+        base.keys().iter().map(|k| if k == "LK-47" { NASTY.to_owned() } else { k.clone() }).collect();
+    let table = Table::new(keys, base.columns().to_vec()).expect("table");
+    let analysis = Analysis::build(AnalysisParts {
+        id: "nasty".into(),
+        name: NASTY.into(),
+        glossary: sample_glossary(NASTY),
+        source: Arc::new(Source::bare(NASTY, table)),
+        spec: sample_spec(NASTY),
+        parent: None,
+    })
+    .expect("the nasty model fits");
+    let state = AppState::new();
+    state.insert(analysis).expect("insert");
+    router(state, SecurityConfig::local(PORT))
+}
+
+#[tokio::test]
+async fn user_text_is_escaped_on_every_soundness_page() {
+    let app = nasty_app();
+    let encoded = "%3Cscript%3E%22%27%26";
+    for (path, status) in [
+        ("/analyses/nasty/soundness".to_owned(), StatusCode::OK),
+        (format!("/analyses/nasty/soundness/without?key={encoded}"), StatusCode::OK),
+        ("/analyses/nasty/soundness/without?key=%3Cscript%3Ex".to_owned(), StatusCode::NOT_FOUND),
+    ] {
+        let response = send(&app, get(&path)).await;
+        assert_eq!(response.status(), status, "GET {path}");
+        let html = text(response).await;
+        assert!(!html.contains(NASTY), "{path} contains the raw text");
+        assert!(!html.contains("<script"), "{path} contains a script tag");
+        if status == StatusCode::OK {
+            assert!(html.contains(NASTY_ESCAPED), "{path} shows the escaped text");
+        }
+    }
+    // The flagged key is percent-encoded in the refit link and escaped in the form.
+    let html = text(send(&app, get("/analyses/nasty/soundness")).await).await;
+    assert!(html.contains(&format!("soundness/without?key={encoded}\"")), "the link encodes the key");
+    assert!(html.contains(&format!("name=\"key\" value=\"{NASTY_ESCAPED}\"")), "the form escapes the key");
+    // The JSON twin returns the key as data, intact.
+    let body =
+        text(send(&app, get(&format!("/api/analyses/nasty/soundness/without?key={encoded}"))).await).await;
+    let v: serde_json::Value = serde_json::from_str(&body).expect("json");
+    assert_eq!(v["key"], NASTY);
+}
+
+#[tokio::test]
+async fn the_effects_page_shows_the_hc3_errors_of_the_checks_document() {
+    let app = demo_app();
+    let html = check(&app, &format!("/analyses/{DEMO_ID}"), StatusCode::OK, "HC3 standard error").await;
+    let doc = demo_checks();
+    let table = wardcast::demo::larkmoor_table().expect("table");
+    let fit = wardcast::analysis::Fitted::new(&table, &demo_spec()).expect("fit");
+    let fit_doc = fit.fit_document().expect("document");
+    let Outcome::Ok { result: robust } = &doc.robust_errors else { panic!("robust errors computed") };
+    let q = wardcast_engine::dist::t_isf(0.025, fit_doc.df_residual as f64);
+    for (r, c) in robust.coefficients.iter().zip(&fit_doc.coefficients) {
+        assert_eq!(r.term, c.term);
+        // Each coefficient row: estimate, SE, t, interval, then HC3 SE and HC3 interval.
+        let row = data_values(between(&html, &format!("<tr><th scope=\"row\">{}</th>", c.term), "</tr>"));
+        assert_eq!(row.len(), 8, "{}: eight figures", c.term);
+        assert_eq!(row[5], r.hc3, "{}: HC3 exactly as the checks document", c.term);
+        assert!(close(row[6], c.estimate - q * r.hc3) && close(row[7], c.estimate + q * r.hc3), "{}", c.term);
+        assert!(close(row[1], r.classical), "{}: classical SE agrees with the checks", c.term);
+    }
+    assert!(html.contains("differ materially"), "the page says when they differ materially");
+    assert!(html.contains("MacKinnon &#38; White 1985"));
+}
