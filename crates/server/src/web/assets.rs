@@ -38,6 +38,7 @@ pub const ASSETS: &[Asset] = &[
     asset!("icon.svg", "image/svg+xml"),
     asset!("tables.css", "text/css; charset=utf-8"),
     asset!("setup.css", "text/css; charset=utf-8"),
+    asset!("soundness.css", "text/css; charset=utf-8"),
 ];
 
 /// The asset at `name`, if there is one.
