@@ -11,6 +11,7 @@ pub mod dataset;
 pub mod error;
 pub mod fit;
 pub mod numbers;
+pub mod scenario;
 pub mod selection;
 pub mod spec;
 
