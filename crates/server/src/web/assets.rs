@@ -39,6 +39,7 @@ pub const ASSETS: &[Asset] = &[
     asset!("tables.css", "text/css; charset=utf-8"),
     asset!("setup.css", "text/css; charset=utf-8"),
     asset!("soundness.css", "text/css; charset=utf-8"),
+    asset!("whatif.css", "text/css; charset=utf-8"),
 ];
 
 /// The asset at `name`, if there is one.
