@@ -291,16 +291,21 @@ fn is_state_changing(method: &Method) -> bool {
 
 /// The cross-site verdict for a state-changing request; `Err` carries the reason.
 pub fn cross_site_check(config: &SecurityConfig, headers: &HeaderMap) -> Result<(), &'static str> {
-    let fetch_site = headers.get(HeaderName::from_static("sec-fetch-site"));
-    if let Some(site) = fetch_site {
-        let site = site.to_str().unwrap_or("").trim().to_ascii_lowercase();
-        if site != "same-origin" && site != "none" {
-            return Err("This request came from another site, so it was refused.");
-        }
+    let fetch_site = headers
+        .get(HeaderName::from_static("sec-fetch-site"))
+        .map(|site| site.to_str().unwrap_or("").trim().to_ascii_lowercase());
+    if let Some(site) = &fetch_site
+        && site != "same-origin"
+        && site != "none"
+    {
+        return Err("This request came from another site, so it was refused.");
     }
     if let Some(origin) = headers.get(header::ORIGIN) {
         let origin = origin.to_str().unwrap_or("").trim().to_ascii_lowercase();
-        let allowed = origin.strip_prefix("http://").is_some_and(|host| config.host_allowed(host));
+        // Under `Referrer-Policy: no-referrer` a browser posts a same-origin form with
+        // `Origin: null`; `Sec-Fetch-Site`, which only the browser sets, then vouches for it.
+        let vouched = origin == "null" && fetch_site.as_deref() == Some("same-origin");
+        let allowed = vouched || origin.strip_prefix("http://").is_some_and(|host| config.host_allowed(host));
         if !allowed {
             return Err("This request came from a page on another origin, so it was refused.");
         }
