@@ -359,18 +359,19 @@ fn is_state_changing(method: &Method) -> bool {
 
 /// The cross-site verdict for a state-changing request; `Err` carries the reason.
 pub fn cross_site_check(config: &SecurityConfig, headers: &HeaderMap) -> Result<(), &'static str> {
-    let fetch_site = headers.get(HeaderName::from_static("sec-fetch-site"));
-    if let Some(site) = fetch_site {
-        let site = site.to_str().unwrap_or("").trim().to_ascii_lowercase();
-        if site != "same-origin" && site != "none" {
-            return Err("This request came from another site, so it was refused.");
-        }
+    let fetch_site = headers
+        .get(HeaderName::from_static("sec-fetch-site"))
+        .map(|site| site.to_str().unwrap_or("").trim().to_ascii_lowercase());
+    if let Some(site) = &fetch_site
+        && site != "same-origin"
+        && site != "none"
+    {
+        return Err("This request came from another site, so it was refused.");
     }
     // Under `Referrer-Policy: no-referrer` a browser sends `Origin: null` with its own
     // same-origin form posts; `Sec-Fetch-Site: same-origin`, which no page can forge, vouches
     // for those. A `null` origin without it is still refused.
-    let vouched =
-        fetch_site.is_some_and(|s| s.to_str().unwrap_or("").trim().eq_ignore_ascii_case("same-origin"));
+    let vouched = fetch_site.as_deref() == Some("same-origin");
     if let Some(origin) = headers.get(header::ORIGIN) {
         let origin = origin.to_str().unwrap_or("").trim().to_ascii_lowercase();
         let allowed = (vouched && origin == "null")

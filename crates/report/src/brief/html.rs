@@ -68,17 +68,115 @@ pub fn escape(s: &str) -> String {
     out
 }
 
-/// Renders the brief as a self-contained HTML document.
+/// Where the standalone HTML brief takes its fonts from.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub enum Fonts {
+    /// The reader's installed fonts (Noto Sans, DejaVu Sans or any sans-serif); a small file.
+    #[default]
+    System,
+    /// DejaVu Sans and DejaVu Sans Bold embedded as base64 `@font-face` data (about 2 MB), so
+    /// the brief looks and prints the same everywhere without fetching anything.
+    Embedded,
+}
+
+/// Options of the standalone HTML brief.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct HtmlOptions {
+    /// Where the fonts come from.
+    pub fonts: Fonts,
+}
+
+/// The family name of the embedded fonts, first in the body's font stack.
+const EMBEDDED_FAMILY: &str = "DejaVu Sans Brief";
+
+/// Standard base64 (RFC 4648, section 4) with padding.
+fn base64(bytes: &[u8]) -> String {
+    const ALPHABET: &[u8; 64] = b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
+    let mut out = String::with_capacity(bytes.len().div_ceil(3) * 4);
+    for chunk in bytes.chunks(3) {
+        let b = [chunk[0], chunk.get(1).copied().unwrap_or(0), chunk.get(2).copied().unwrap_or(0)];
+        let n = (u32::from(b[0]) << 16) | (u32::from(b[1]) << 8) | u32::from(b[2]);
+        let sextet = |shift: u32| char::from(ALPHABET[((n >> shift) & 63) as usize]);
+        out.push(sextet(18));
+        out.push(sextet(12));
+        out.push(if chunk.len() > 1 { sextet(6) } else { '=' });
+        out.push(if chunk.len() > 2 { sextet(0) } else { '=' });
+    }
+    out
+}
+
+fn font_faces() -> String {
+    let mut css = String::with_capacity(2 * 1024 * 1024);
+    for (data, weight) in [(super::pdf::REGULAR, 400), (super::pdf::BOLD, 700)] {
+        let _ = writeln!(
+            css,
+            "@font-face {{ font-family: '{EMBEDDED_FAMILY}'; font-weight: {weight}; font-style: normal; src: url(data:font/ttf;base64,{}) format('truetype'); }}",
+            base64(data)
+        );
+    }
+    let _ =
+        writeln!(css, "body {{ font-family: '{EMBEDDED_FAMILY}', 'Noto Sans', 'DejaVu Sans', sans-serif; }}");
+    css
+}
+
+/// Renders the brief as a self-contained HTML document using the reader's installed fonts.
 ///
 /// # Errors
 /// [`crate::ReportError::Brief`] when the brief lacks its limitations section.
 pub fn render(brief: &Brief) -> Result<String> {
+    render_with(brief, &HtmlOptions::default())
+}
+
+/// Renders the brief as a self-contained HTML document with the given options.
+///
+/// # Errors
+/// [`crate::ReportError::Brief`] when the brief lacks its limitations section.
+pub fn render_with(brief: &Brief, options: &HtmlOptions) -> Result<String> {
     brief.verify()?;
     let mut out = String::with_capacity(256 * 1024);
     out.push_str("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n");
     out.push_str("<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n");
     let _ = writeln!(out, "<title>{}</title>", escape(brief.title()));
-    let _ = writeln!(out, "<style>{CSS}</style>\n</head>\n<body>\n<main>");
+    let _ = write!(out, "<style>{CSS}");
+    if options.fonts == Fonts::Embedded {
+        out.push_str(&font_faces());
+    }
+    out.push_str("</style>\n</head>\n<body>\n<main>\n");
+    sections(&mut out, brief, Markup::STANDALONE);
+    let _ = writeln!(out, "<footer>{}</footer>", escape(brief.title()));
+    out.push_str("</main>\n</body>\n</html>\n");
+    Ok(out)
+}
+
+/// Renders the brief's sections as an HTML fragment for a page that brings its own frame and
+/// stylesheet (the web app's Brief page): no `<style>`, no document head, and every number in
+/// a table carried as `<data value="…">` with its full-precision value so it can be checked
+/// against the JSON it came from.
+///
+/// # Errors
+/// [`crate::ReportError::Brief`] when the brief lacks its limitations section.
+pub fn render_fragment(brief: &Brief) -> Result<String> {
+    brief.verify()?;
+    let mut out = String::with_capacity(256 * 1024);
+    out.push_str("<article class=\"brief-doc\">\n");
+    sections(&mut out, brief, Markup::EMBEDDED);
+    out.push_str("</article>\n");
+    Ok(out)
+}
+
+/// How table numbers are written.
+#[derive(Debug, Clone, Copy)]
+struct Markup {
+    /// Whether a number cell carries its full-precision value in a `<data>` element.
+    data_values: bool,
+}
+
+impl Markup {
+    const STANDALONE: Markup = Markup { data_values: false };
+    const EMBEDDED: Markup = Markup { data_values: true };
+}
+
+fn sections(out: &mut String, brief: &Brief, markup: Markup) {
     for s in brief.sections() {
         if s.kind() == SectionKind::Title {
             let _ = writeln!(
@@ -88,21 +186,18 @@ pub fn render(brief: &Brief) -> Result<String> {
                 escape(brief.title())
             );
             let _ = writeln!(out, "<h2>{}</h2>", escape(s.heading()));
-            blocks(&mut out, s.blocks());
+            blocks(out, s.blocks(), markup);
             out.push_str("</header>\n");
             continue;
         }
         let class = if s.kind() == SectionKind::Limitations { " class=\"limitations\"" } else { "" };
         let _ = writeln!(out, "<section id=\"{}\"{class}>\n<h2>{}</h2>", s.kind().id(), escape(s.heading()));
-        blocks(&mut out, s.blocks());
+        blocks(out, s.blocks(), markup);
         out.push_str("</section>\n");
     }
-    let _ = writeln!(out, "<footer>{}</footer>", escape(brief.title()));
-    out.push_str("</main>\n</body>\n</html>\n");
-    Ok(out)
 }
 
-fn blocks(out: &mut String, blocks: &[Block]) {
+fn blocks(out: &mut String, blocks: &[Block], markup: Markup) {
     for b in blocks {
         match b {
             Block::Paragraph(t) => {
@@ -118,7 +213,7 @@ fn blocks(out: &mut String, blocks: &[Block]) {
                 }
                 out.push_str("</ul>\n");
             }
-            Block::Table(t) => table(out, t),
+            Block::Table(t) => table(out, t, markup),
             Block::Figure(f) => {
                 // The chart module escapes its own text and emits no script or style.
                 let _ = writeln!(
@@ -142,7 +237,7 @@ fn blocks(out: &mut String, blocks: &[Block]) {
     }
 }
 
-fn table(out: &mut String, t: &Table) {
+fn table(out: &mut String, t: &Table, markup: Markup) {
     let _ = writeln!(
         out,
         "<div class=\"table-wrap\"><table>\n<caption>{}</caption>\n<thead><tr>",
@@ -156,6 +251,13 @@ fn table(out: &mut String, t: &Table) {
         out.push_str("<tr>");
         for cell in row {
             match cell {
+                Cell::Number { value, shown } if markup.data_values => {
+                    let _ = write!(
+                        out,
+                        "<td class=\"num\"><data value=\"{value:?}\">{}</data></td>",
+                        escape(shown)
+                    );
+                }
                 Cell::Number { shown, .. } => {
                     let _ = write!(out, "<td class=\"num\">{}</td>", escape(shown));
                 }

@@ -23,6 +23,7 @@
 //! let xlsx = tables::to_xlsx(&brief)?;                               // tables.xlsx
 //! ```
 
+mod allocation;
 mod build;
 mod choice;
 pub use choice::{ChoiceCv, model_choice};

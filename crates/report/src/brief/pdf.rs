@@ -20,9 +20,11 @@ use krilla_svg::{SurfaceExt, SvgSettings};
 use super::{Block, Brief, Cell, SectionKind, Table};
 use crate::{ReportError, Result};
 
-const REGULAR: &[u8] =
+/// DejaVu Sans (assets/fonts, under its own open licence), also embedded in the HTML brief.
+pub(crate) const REGULAR: &[u8] =
     include_bytes!(concat!(env!("CARGO_MANIFEST_DIR"), "/../../assets/fonts/DejaVuSans.ttf"));
-const BOLD: &[u8] =
+/// DejaVu Sans Bold.
+pub(crate) const BOLD: &[u8] =
     include_bytes!(concat!(env!("CARGO_MANIFEST_DIR"), "/../../assets/fonts/DejaVuSans-Bold.ttf"));
 
 /// The paper size of the PDF.

@@ -148,6 +148,10 @@ fn the_brief_cannot_be_produced_without_its_limitations() {
     let message = |e: wardcast_report::ReportError| e.to_string();
     assert!(message(html::render(&stripped).expect_err("HTML refused")).contains("limitations"));
     assert!(
+        message(html::render_fragment(&stripped).expect_err("the web page's HTML refused"))
+            .contains("limitations")
+    );
+    assert!(
         message(pdf::render(&stripped, &pdf::PdfOptions::default()).expect_err("PDF refused"))
             .contains("limitations")
     );
@@ -311,6 +315,72 @@ fn allocation_section_appears_when_run() {
 }
 
 #[test]
+fn allocation_view_is_made_from_the_engine_document() {
+    use wardcast_engine::allocation::{Basis, BlendWeights};
+    let doc = demo::demo_allocation(3_000_000, Basis::Expected);
+    let view = AllocationView::from_document(&doc, "marks");
+    assert_eq!(view.total, 3_000_000.0);
+    assert_eq!(view.currency, "marks");
+    assert_eq!(view.bases, ["population", "observed incidents", "model-expected incidents"]);
+    assert_eq!(view.chosen_basis, "model-expected incidents");
+    assert_eq!((view.floor, view.cap, view.seed, view.draws), (Some(8_000.0), None, Some(2027), Some(500)));
+    assert_eq!(view.rows.len(), doc.districts.len());
+    assert_eq!(view.rows.iter().map(|r| r.amount).sum::<f64>(), 3_000_000.0, "amounts sum to the total");
+    for (row, d) in view.rows.iter().zip(&doc.districts) {
+        assert_eq!(row.key, d.key);
+        assert_eq!(row.amount, d.proposed as f64);
+        assert_eq!(row.current_budget, d.current_budget.map(|b| b as f64));
+        assert_eq!(row.shares, [d.shares.population, d.shares.observed, d.shares.expected]);
+        let range = doc.uncertainty.districts.iter().find(|r| r.key == d.key).expect("a simulated range");
+        assert_eq!((row.share_low, row.share_high), (Some(range.share.p2_5), Some(range.share.p97_5)));
+    }
+    assert!(view.notes.iter().any(|n| n.contains("does not describe, score or rank any resident")));
+    assert!(view.notes.iter().any(|n| n.starts_with("Switching between population and observed incidents")));
+    // A basis that does not use the model carries no model range; a blend adds its own shares.
+    let population =
+        AllocationView::from_document(&demo::demo_allocation(3_000_000, Basis::Population), "marks");
+    assert!(population.rows.iter().all(|r| r.share_low.is_none() && r.share_high.is_none()));
+    assert!(population.notes.iter().any(|n| n.contains("carry no model uncertainty")));
+    let blend = Basis::Blend(BlendWeights { population: 0.5, observed: 0.25, expected: 0.25 });
+    let blended = AllocationView::from_document(&demo::demo_allocation(3_000_000, blend), "marks");
+    assert_eq!(blended.bases.len(), 4);
+    assert!(blended.chosen_basis.contains("population (50%)"));
+    assert!(blended.rows.iter().all(|r| r.shares.len() == 4 && r.share_low.is_some()));
+    // The section the brief builds from it.
+    let mut input = demo::demo_input();
+    input.allocation = Some(view);
+    let page = html::render(&Brief::build(&input).expect("builds")).expect("renders");
+    assert!(page.contains("3,000,000 marks"));
+    assert!(page.contains("sum exactly to the total"));
+}
+
+#[test]
+fn html_brief_can_carry_its_fonts() {
+    let (_, brief) = demo_brief();
+    let plain = html::render(&brief).expect("renders");
+    let options = html::HtmlOptions { fonts: html::Fonts::Embedded };
+    let embedded = html::render_with(&brief, &options).expect("renders");
+    assert!(!plain.contains("@font-face"), "the default uses the reader's fonts");
+    assert_eq!(embedded.matches("@font-face").count(), 2, "regular and bold");
+    // A TrueType file starts with the version 0x00010000, which is "AAEAAA" in base64.
+    assert_eq!(embedded.matches("src: url(data:font/ttf;base64,AAEAAA").count(), 2);
+    let start = embedded.find("base64,").expect("data") + "base64,".len();
+    let data = &embedded[start..start + embedded[start..].find(')').expect("end")];
+    assert_eq!(data.len() % 4, 0, "padded base64");
+    assert!(data.bytes().all(|b| b.is_ascii_alphanumeric() || b == b'+' || b == b'/' || b == b'='));
+    let regular = std::fs::read(concat!(env!("CARGO_MANIFEST_DIR"), "/../../assets/fonts/DejaVuSans.ttf"))
+        .expect("font");
+    assert_eq!(data.len(), regular.len().div_ceil(3) * 4, "the whole regular face");
+    // Apart from the fonts, the two documents are the same.
+    let without_fonts: String =
+        embedded.lines().filter(|l| !l.contains("DejaVu Sans Brief")).collect::<Vec<_>>().join("\n");
+    assert_eq!(without_fonts, plain.lines().collect::<Vec<_>>().join("\n"));
+    for request in ["src=\"http", "href=\"http", "url(http", "@import"] {
+        assert!(!embedded.contains(request), "an external request: {request}");
+    }
+}
+
+#[test]
 fn pdf_is_written_with_embedded_fonts() {
     let (_, brief) = demo_brief();
     let bytes = pdf::render(&brief, &pdf::PdfOptions::default()).expect("the PDF renders");
@@ -352,6 +422,30 @@ fn pdf_text_holds_every_section_caution_and_number() {
     let joined = text.split_whitespace().collect::<Vec<_>>().join(" ");
     check_content("pdf", &joined, &input);
     assert!(joined.contains("Page 1 of"), "no page numbers");
+}
+
+#[test]
+#[ignore = "needs pdftotext (poppler-utils): run by .ci/run"]
+fn pdf_with_an_allocation_shows_its_heading_and_amounts() {
+    let doc = demo::demo_allocation(3_000_000, wardcast_engine::allocation::Basis::Expected);
+    let mut input = demo::demo_input();
+    input.allocation = Some(AllocationView::from_document(&doc, "marks"));
+    let brief = Brief::build(&input).expect("builds");
+    let path = artifacts().join("brief-allocation.pdf");
+    std::fs::write(&path, pdf::render(&brief, &pdf::PdfOptions::default()).expect("renders"))
+        .expect("written");
+    let out = run(Command::new("pdftotext").arg("-enc").arg("UTF-8").arg(&path).arg("-"), "pdftotext");
+    let text = String::from_utf8(out.stdout).expect("UTF-8 text");
+    let joined = text.split_whitespace().collect::<Vec<_>>().join(" ");
+    assert!(joined.contains("8. Scenarios and allocation"), "no allocation heading");
+    assert!(joined.contains("3,000,000 marks"), "no total");
+    assert!(joined.contains("Proposed amount"), "no amount column");
+    assert!(!joined.contains("No scenario or allocation was run"));
+    // Every district's amount is printed as the brief formats it.
+    for d in &doc.districts {
+        let shown = wardcast_report::brief::text::fmt_amount(d.proposed as f64);
+        assert!(joined.contains(&shown), "the amount {shown} of {} is missing", d.key);
+    }
 }
 
 #[test]

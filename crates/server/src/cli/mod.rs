@@ -4,6 +4,7 @@
 //! defined once in [`model_args`]. Bad input prints one line on standard error and exits
 //! with code 2; success prints JSON on standard output.
 
+pub mod allocation;
 pub mod brief;
 pub mod check;
 pub mod data;
@@ -41,7 +42,7 @@ pub enum Command {
     /// Search the best subsets of the predictors, cross-validate them and compare nested models.
     Select(select::SelectArgs),
     /// Write the budgeting brief (PDF or HTML) or its tables (CSV or XLSX).
-    Brief(brief::BriefArgs),
+    Brief(Box<brief::BriefArgs>),
     /// Validate a CSV or XLSX table and show every problem; `--save` stores it.
     Import(data::ImportArgs),
     /// List the stored tables and their versions.
@@ -64,7 +65,22 @@ pub struct ServeArgs {
 
 /// Parses the arguments and runs the command.
 pub fn main() -> ExitCode {
-    let cli = Cli::parse();
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        // Help and version go out in full; a refused command line is one line and exit code 2,
+        // like every other refusal.
+        Err(e) if !e.use_stderr() => e.exit(),
+        Err(e) => {
+            // clap's message runs over several lines before its usage note; join those lines.
+            let text = e.to_string();
+            let message = text.split("\n\nUsage:").next().unwrap_or_default();
+            let message = message.split("\n\nFor more information").next().unwrap_or_default();
+            let words: Vec<&str> = message.split_whitespace().collect();
+            let line = words.join(" ");
+            eprintln!("wardcast: {}", line.trim_start_matches("error: "));
+            return ExitCode::from(EXIT_REFUSED);
+        }
+    };
     let outcome = match cli.command {
         Command::Serve(args) => serve(args),
         Command::Fit(args) => fit::run(&args),

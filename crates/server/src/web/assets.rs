@@ -40,6 +40,7 @@ pub const ASSETS: &[Asset] = &[
     asset!("setup.css", "text/css; charset=utf-8"),
     asset!("soundness.css", "text/css; charset=utf-8"),
     asset!("whatif.css", "text/css; charset=utf-8"),
+    asset!("brief.css", "text/css; charset=utf-8"),
 ];
 
 /// The asset at `name`, if there is one.

@@ -170,3 +170,55 @@ pub fn demo_input() -> BriefInput {
         counts_from_enforcement: true,
     }
 }
+
+/// An allocation of `total` on the demo's fitted districts through the engine, as its
+/// contract document: the given basis, a floor, seeded draws, and this year's budgets read
+/// from demo/larkmoor_budgets.csv (two of its codes match no district).
+pub fn demo_allocation(
+    total: u64,
+    basis: wardcast_engine::allocation::Basis,
+) -> wardcast_contract::allocation::AllocationDocument {
+    use wardcast_engine::allocation::{
+        AllocationOptions, BudgetRow, DistrictInput, ExpectedModel, SimulationOptions, allocate,
+    };
+    let table = demo_table();
+    let spec = demo_spec();
+    let design = Design::build(&table, &spec.to_engine().expect("a valid spec")).expect("the design builds");
+    let fit = Fit::new(&design, &FitOptions::default()).expect("the model fits");
+    let value = |name: &str, i: usize| match &table.column(name).expect("column").data {
+        wardcast_engine::ColumnData::Numeric(v) => v[i].expect("a value"),
+        wardcast_engine::ColumnData::Text(_) => panic!("{name} is numeric"),
+    };
+    let districts: Vec<DistrictInput> = table
+        .keys()
+        .iter()
+        .enumerate()
+        .filter(|(_, k)| design.keys().contains(k))
+        .map(|(i, k)| DistrictInput {
+            key: k.clone(),
+            residents: value("residents", i),
+            observed: value("assaults", i),
+        })
+        .collect();
+    let text =
+        std::fs::read_to_string(demo_dir().join("larkmoor_budgets.csv")).expect("the budget CSV is readable");
+    let budgets: Vec<BudgetRow> = text
+        .lines()
+        .skip(1)
+        .filter(|l| !l.trim().is_empty())
+        .map(|l| {
+            let cells: Vec<&str> = l.split(',').collect();
+            BudgetRow { key: cells[0].to_owned(), amount: cells[1].trim().parse().expect("a whole amount") }
+        })
+        .collect();
+    let model = ExpectedModel { fit: &fit, rate_unit: 10_000.0, extra_rows: Vec::new() };
+    let options = AllocationOptions {
+        total,
+        basis,
+        floor: Some(8_000),
+        cap: None,
+        simulation: SimulationOptions { draws: 500, seed: 2027 },
+    };
+    let allocation = allocate(&districts, &budgets, &model, &options).expect("the allocation runs");
+    wardcast_contract::allocation::AllocationDocument::from_allocation(&allocation)
+}
