@@ -5,6 +5,7 @@
 //! and the store all speak these types, and every document carries [`SCHEMA_VERSION`].
 
 pub mod allocation;
+pub mod areas;
 pub mod cautions;
 pub mod checks;
 pub mod dataset;
@@ -13,6 +14,7 @@ pub mod fit;
 pub mod numbers;
 pub mod selection;
 pub mod spec;
+pub mod survey;
 
 pub use error::{ContractError, Result};
 
