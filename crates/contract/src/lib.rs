@@ -5,6 +5,7 @@
 //! and the store all speak these types, and every document carries [`SCHEMA_VERSION`].
 
 pub mod allocation;
+pub mod areas;
 pub mod cautions;
 pub mod checks;
 pub mod dataset;
@@ -14,6 +15,7 @@ pub mod numbers;
 pub mod scenario;
 pub mod selection;
 pub mod spec;
+pub mod survey;
 
 pub use error::{ContractError, Result};
 

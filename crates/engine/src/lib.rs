@@ -7,6 +7,7 @@
 //! source in `docs/METHODS.md`.
 
 pub mod allocation;
+pub mod areas;
 pub mod data;
 pub mod design;
 pub mod diagnostics;

@@ -2,6 +2,8 @@
 
 #[path = "engine/allocation.rs"]
 mod allocation;
+#[path = "engine/areas.rs"]
+mod areas;
 #[path = "engine/common.rs"]
 mod common;
 #[path = "engine/design.rs"]

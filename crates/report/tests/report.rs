@@ -13,4 +13,5 @@ mod report {
     mod charts;
     mod invalid;
     mod safety;
+    mod survey_charts;
 }

@@ -21,10 +21,12 @@ mod effect;
 mod heatmap;
 mod histogram;
 mod line;
+mod matrix;
 pub mod palette;
 mod qq;
 pub mod scale;
 mod scatter;
+mod strip;
 pub mod text;
 
 pub use bar::{BarChart, BarGroup, Threshold};
@@ -32,8 +34,10 @@ pub use effect::{EffectPlot, EffectRow};
 pub use heatmap::CorrelationHeatMap;
 pub use histogram::{Bins, Histogram, Marker};
 pub use line::{Callout, LinePlot, LineSeries, XTicks};
+pub use matrix::{MATRIX_MAX_MEASURES, MatrixMeasure, ScatterMatrix};
 pub use qq::{QqLine, QqPlot, QqPoint};
 pub use scatter::{Reference, Scatter, ScatterPoint};
+pub use strip::{IntervalStrip, StripRow};
 
 use crate::Result;
 
