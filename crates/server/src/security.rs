@@ -290,16 +290,25 @@ fn is_state_changing(method: &Method) -> bool {
 }
 
 /// The cross-site verdict for a state-changing request; `Err` carries the reason.
+///
+/// Under `Referrer-Policy: no-referrer` browsers send `Origin: null` with every form POST (Fetch
+/// standard, "serializing a request origin"), so a `null` origin is accepted when the browser
+/// also says `Sec-Fetch-Site: same-origin`, a header pages cannot set; alone it is refused.
 pub fn cross_site_check(config: &SecurityConfig, headers: &HeaderMap) -> Result<(), &'static str> {
     let fetch_site = headers.get(HeaderName::from_static("sec-fetch-site"));
+    let mut same_origin = false;
     if let Some(site) = fetch_site {
         let site = site.to_str().unwrap_or("").trim().to_ascii_lowercase();
         if site != "same-origin" && site != "none" {
             return Err("This request came from another site, so it was refused.");
         }
+        same_origin = site == "same-origin";
     }
     if let Some(origin) = headers.get(header::ORIGIN) {
         let origin = origin.to_str().unwrap_or("").trim().to_ascii_lowercase();
+        if origin == "null" && same_origin {
+            return Ok(());
+        }
         let allowed = origin.strip_prefix("http://").is_some_and(|host| config.host_allowed(host));
         if !allowed {
             return Err("This request came from a page on another origin, so it was refused.");

@@ -25,7 +25,7 @@
 
 mod build;
 mod choice;
-pub use choice::{ChoiceCv, model_choice};
+pub use choice::{ChoiceCv, from_selection, model_choice};
 pub mod html;
 pub mod pdf;
 pub mod tables;
