@@ -358,6 +358,13 @@ fn is_state_changing(method: &Method) -> bool {
 }
 
 /// The cross-site verdict for a state-changing request; `Err` carries the reason.
+///
+/// Under `Referrer-Policy: no-referrer` browsers send `Origin: null` with every form POST (Fetch
+/// standard, "serializing a request origin"), so a `null` origin is accepted when the browser
+/// also says `Sec-Fetch-Site: same-origin`, a header pages cannot set; alone it is refused.
+/// (The pages themselves ask for `same-origin` referrers with a meta element, so browsers send
+/// their real origin, which also covers plain-HTTP LAN addresses where browsers send no
+/// `Sec-Fetch-Site` at all.)
 pub fn cross_site_check(config: &SecurityConfig, headers: &HeaderMap) -> Result<(), &'static str> {
     let fetch_site = headers
         .get(HeaderName::from_static("sec-fetch-site"))
@@ -368,9 +375,6 @@ pub fn cross_site_check(config: &SecurityConfig, headers: &HeaderMap) -> Result<
     {
         return Err("This request came from another site, so it was refused.");
     }
-    // Under `Referrer-Policy: no-referrer` a browser sends `Origin: null` with its own
-    // same-origin form posts; `Sec-Fetch-Site: same-origin`, which no page can forge, vouches
-    // for those. A `null` origin without it is still refused.
     let vouched = fetch_site.as_deref() == Some("same-origin");
     if let Some(origin) = headers.get(header::ORIGIN) {
         let origin = origin.to_str().unwrap_or("").trim().to_ascii_lowercase();

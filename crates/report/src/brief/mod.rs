@@ -26,7 +26,7 @@
 mod allocation;
 mod build;
 mod choice;
-pub use choice::{ChoiceCv, model_choice};
+pub use choice::{ChoiceCv, from_selection, model_choice};
 pub mod html;
 pub mod pdf;
 pub mod tables;

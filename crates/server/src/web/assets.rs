@@ -42,6 +42,7 @@ pub const ASSETS: &[Asset] = &[
     asset!("whatif.css", "text/css; charset=utf-8"),
     asset!("brief.css", "text/css; charset=utf-8"),
     asset!("survey.css", "text/css; charset=utf-8"),
+    asset!("contenders.css", "text/css; charset=utf-8"),
 ];
 
 /// The asset at `name`, if there is one.
