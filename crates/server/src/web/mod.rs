@@ -86,14 +86,12 @@ impl Ctx {
     }
 
     /// The workspace.
-    #[allow(dead_code, reason = "the page modules use it as they land")]
     pub(crate) fn app(&self) -> &AppState {
         &self.app
     }
 
     /// Looks up an analysis and makes sure its diagnostics are computed, computing them on the
     /// blocking pool the first time.
-    #[allow(dead_code, reason = "the page modules use it as they land")]
     pub(crate) async fn checked(&self, id: &str) -> Result<(Arc<Analysis>, Arc<CheckedModel>)> {
         let analysis = self.analysis(id)?;
         if analysis.checks_ready() {
