@@ -16,7 +16,7 @@ use wardcast_engine::dist;
 use wardcast_report::svg::{Axis, Chart, EffectPlot, EffectRow as PlotRow};
 
 use super::Ctx;
-use super::pages::{Layout, Section, render};
+use super::pages::{Layout, Section, html, page_key, render_string};
 use super::state::Analysis;
 use super::words::{
     Estimate, TermKind, Wording, capitalise, classify_terms, comparison_label, comparison_scale,
@@ -549,6 +549,10 @@ fn overall_fact(fit: &FitDocument, response: &str) -> Fact {
 /// `GET /analyses/{id}`: the Effects page.
 pub async fn page(State(ctx): State<Ctx>, Path(id): Path<String>) -> Result<Response> {
     let (analysis, checked) = ctx.checked(&id).await?;
-    let page = EffectsPage::build(&analysis, ctx.shared()).with_robust(analysis.fit(), &checked.document);
-    Ok(render(&page))
+    let shared = ctx.shared();
+    // The page depends only on the immutable analysis and the frame flags in the key.
+    let text = analysis.cached_page(&page_key("effects", shared), || {
+        render_string(&EffectsPage::build(&analysis, shared).with_robust(analysis.fit(), &checked.document))
+    })?;
+    Ok(html(&text))
 }

@@ -125,6 +125,25 @@ impl Layout {
     }
 }
 
+/// Renders a page to text; a template failure is a render error.
+pub fn render_string<T: Template>(page: &T) -> Result<String, ServerError> {
+    page.render().map_err(ServerError::Render)
+}
+
+/// An HTML response from text rendered earlier (e.g. from [`Analysis::cached_page`]).
+///
+/// [`Analysis::cached_page`]: super::state::Analysis::cached_page
+pub fn html(text: &str) -> Response {
+    let mut response = text.to_owned().into_response();
+    response.headers_mut().insert(header::CONTENT_TYPE, HeaderValue::from_static("text/html; charset=utf-8"));
+    response
+}
+
+/// The cache key of a page of an analysis: its name plus every frame flag it depends on.
+pub fn page_key(name: &str, layout_shared: bool) -> String {
+    format!("{name}|shared={layout_shared}|read_only={}", crate::security::read_only())
+}
+
 /// Renders a page; a template failure becomes the generic 500 page (details go to the log).
 pub fn render<T: Template>(page: &T) -> Response {
     match page.render() {

@@ -213,6 +213,7 @@ pub struct Analysis {
     parent: Option<String>,
     checks: OnceLock<Arc<CheckedModel>>,
     extras: RwLock<Extras>,
+    pages: Mutex<BTreeMap<String, Arc<String>>>,
 }
 
 /// What an analysis is built from.
@@ -255,6 +256,7 @@ impl Analysis {
             parent,
             checks: OnceLock::new(),
             extras: RwLock::new(Extras::default()),
+            pages: Mutex::new(BTreeMap::new()),
         })
     }
 
@@ -324,6 +326,23 @@ impl Analysis {
     /// A copy of the analyst's extras.
     pub fn extras(&self) -> Result<Extras> {
         Ok(self.extras.read().map_err(|_| poisoned())?.clone())
+    }
+
+    /// A rendered page of this analysis, rendered by `render` on the first call for `key` and
+    /// kept afterwards. Only pages that depend on nothing but the analysis' immutable parts
+    /// (and on what `key` encodes, such as the read-only flag) may be cached; pages that show
+    /// the extras must not be. The cache is bounded: past 64 entries it starts afresh.
+    pub fn cached_page(&self, key: &str, render: impl FnOnce() -> Result<String>) -> Result<Arc<String>> {
+        if let Some(page) = self.pages.lock().map_err(|_| poisoned())?.get(key) {
+            return Ok(page.clone());
+        }
+        let page = Arc::new(render()?);
+        let mut pages = self.pages.lock().map_err(|_| poisoned())?;
+        if pages.len() >= 64 {
+            pages.clear();
+        }
+        pages.insert(key.to_owned(), page.clone());
+        Ok(page)
     }
 
     /// Changes the extras under the lock.
