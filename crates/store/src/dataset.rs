@@ -388,8 +388,18 @@ impl Keyed for StagedImport {
 }
 
 impl Keyed for Draft {
+    /// The imported file's name without its extension (so a clashing right-hand column of a
+    /// join is suffixed with where it came from), or "joined"/"draft" for other drafts.
     fn label(&self) -> String {
-        "draft".into()
+        match &self.origin {
+            Origin::Import { source } => {
+                let name = source.file_name.rsplit(['/', '\\']).next().unwrap_or(&source.file_name);
+                let stem = name.rsplit_once('.').map_or(name, |(stem, _)| stem);
+                if stem.is_empty() { "draft".into() } else { stem.to_owned() }
+            }
+            Origin::Join { .. } => "joined".into(),
+            Origin::Edit { .. } => "draft".into(),
+        }
     }
     fn table(&self) -> &DataFrame {
         &self.frame
