@@ -824,6 +824,14 @@ pub struct SearchDoc {
     pub notes: Vec<String>,
 }
 
+impl SearchDoc {
+    /// The document of a transformation search run on its own (for instance as a background
+    /// job with other options), in the same form as the search inside the checks document.
+    pub fn outcome(search: &CheckOutcome<TransformSearch>) -> Outcome<SearchDoc> {
+        Outcome::map(search, search_doc)
+    }
+}
+
 fn search_doc(s: &TransformSearch) -> SearchDoc {
     SearchDoc {
         criterion: s.criterion().to_owned(),

@@ -167,3 +167,69 @@ test('leaving LK-47 out with a reason makes a new analysis and shows its soundne
     assert.deepEqual(problems, [], 'no console errors, CSP violations or HTTP errors');
     await page.close();
   });
+
+test('the transformation search runs again as a job and its table equals the job document', async () => {
+  const { page, problems } = await watchedPage();
+  await page.goto(`${base}/analyses/larkmoor/soundness`);
+  const form = page.locator('form#search-again');
+  await form.locator('input[name="folds"]').fill('5');
+  await form.locator('input[name="seed"]').fill('777');
+  await form.locator('input[name="lambda_low"]').fill('-2');
+  await form.locator('input[name="lambda_high"]').fill('2.5');
+  await form.locator('input[name="top"]').fill('4');
+  const posted = page.waitForResponse((r) => r.request().method() === 'POST');
+  await form.locator('button#start-transform').click();
+  const answer = await posted;
+  assert.equal(answer.status(), 303, `POST answered ${answer.status()}`);
+  await page.waitForURL(/\/jobs\/j[0-9]+$/);
+  const job = new URL(page.url()).pathname.split('/')[2];
+  assert.equal(await page.locator('progress#job-progress').count(), 1, 'the job page shows its progress');
+  // The page refreshes itself until the search is done, then links to the result.
+  await page.locator('a#job-result').waitFor({ timeout: 60000 });
+  await page.locator('a#job-result').click();
+  await page.waitForURL(`${base}/analyses/larkmoor/soundness/transform?job=${job}`);
+  await page.screenshot({ path: path.join(shots, 'soundness-transform.png'), fullPage: true });
+
+  const response = await page.request.get(`${base}/api/jobs/${job}`);
+  assert.equal(response.status(), 200);
+  const doc = await response.json();
+  assert.equal(doc.state, 'done');
+  const result = doc.result;
+  assert.equal(result.kind, 'transformation_search');
+  assert.deepEqual(result.settings, { folds: 5, seed: 777, lambda_low: -2, lambda_high: 2.5, top: 4 });
+  const search = result.search.result;
+  assert.equal(search.seed, 777);
+  assert.equal(search.folds, 5);
+  assert.equal((await page.locator('#setting-seed').innerText()).trim().split(' ')[0], '777');
+
+  // Every candidate is a row (some folded away in the details); its numbers equal the document's.
+  const rows = await page.$$eval('#search-result table.search tbody tr', (trs) => trs.map((r) => ({
+    rank: Number(r.querySelector('td').textContent.trim()),
+    values: [...r.querySelectorAll('data')].map((d) => d.getAttribute('value')),
+  })));
+  assert.equal(rows.length, search.candidates.length, 'one row per candidate');
+  const num = (v) => (v === '' ? null : Number(v));
+  let summaries = 0;
+  for (const row of rows) {
+    const c = search.candidates.find((x) => x.rank === row.rank);
+    assert.ok(c, `candidate of rank ${row.rank}`);
+    const rmse = num(row.values[0]);
+    assert.ok(c.cv_rmse === null ? rmse === null : close(rmse, c.cv_rmse), `RMSE of ${c.label}`);
+    if (c.summary) {
+      summaries += 1;
+      const want = [c.summary.r_squared, c.summary.shapiro_p, c.summary.breusch_pagan_p];
+      want.forEach((x, i) => {
+        const got = num(row.values[1 + i]);
+        assert.ok(x === null ? got === null : close(got, x), `summary ${i} of ${c.label}: ${got} vs ${x}`);
+      });
+    } else {
+      assert.equal(row.values.length, 1, `only the RMSE for ${c.label}`);
+    }
+  }
+  assert.equal(summaries, 4, 'four candidates with a summary');
+  const text = await page.locator('body').innerText();
+  assert.ok(text.includes('never swaps the model'), 'the page says the model is not swapped');
+  assert.equal(await page.locator('#never-swaps a[href="/analyses/larkmoor/data"]').count(), 1, 'it links the Data page');
+  assert.deepEqual(problems, [], 'no console errors, CSP violations or HTTP errors');
+  await page.close();
+});

@@ -32,6 +32,8 @@ pub use transform::{
 pub use variance::{BreuschPagan, BrownForsythe};
 pub use verdict::{Verdict, VerdictLevel};
 
+use std::sync::atomic::AtomicBool;
+
 use crate::error::{EngineError, Result};
 use crate::fit::{Fit, FitOptions};
 use crate::linalg::{LeastSquares, PivotedQr, QrOptions};
@@ -433,7 +435,9 @@ pub fn run(fit: &Fit, opts: &CheckOptions) -> Checks {
     let guard = robust::rows_guard(&w);
     let response_power = transform::response_power_check(&w, opts);
     let box_tidwell = transform::box_tidwell_checks(&w, alpha);
-    let search = transform::search(&w, &response_power, opts);
+    // Without a cancel flag the search always finishes.
+    let search = transform::search(&w, &response_power, opts, SearchControl::default())
+        .unwrap_or_else(|_| CheckOutcome::Unavailable("the search was cancelled".to_owned()));
     Checks {
         alpha,
         nobs: w.n,
@@ -462,6 +466,40 @@ pub fn run(fit: &Fit, opts: &CheckOptions) -> Checks {
         box_tidwell,
         search,
     }
+}
+
+/// Progress reporting and cancellation of a transformation search run on its own with
+/// [`transform_search`]. The default reports nothing and cannot be cancelled.
+#[derive(Clone, Copy, Default)]
+pub struct SearchControl<'a> {
+    /// Called after every step with `(done, total)`; `total` stays the same for the whole run
+    /// and `done` counts from 1 up to it, one step at a time.
+    pub progress: Option<&'a (dyn Fn(usize, usize) + Sync)>,
+    /// When this flag becomes true the search stops with [`EngineError::Cancelled`] before its
+    /// next step.
+    pub cancel: Option<&'a AtomicBool>,
+}
+
+impl std::fmt::Debug for SearchControl<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("SearchControl")
+            .field("progress", &self.progress.is_some())
+            .field("cancel", &self.cancel.is_some())
+            .finish()
+    }
+}
+
+/// Runs only the transformation search of [`run`] (with the response power profile it starts
+/// from), with the same options giving the same result as `run(fit, opts).search()`, while
+/// reporting progress and watching a cancel flag. Fails only with [`EngineError::Cancelled`].
+pub fn transform_search(
+    fit: &Fit,
+    opts: &CheckOptions,
+    control: SearchControl<'_>,
+) -> Result<CheckOutcome<TransformSearch>> {
+    let w = Working::from_fit(fit);
+    let response_power = transform::response_power_check(&w, opts);
+    transform::search(&w, &response_power, opts, control).map_err(|_| EngineError::Cancelled)
 }
 
 /// The quantities every check works from, on the √w-scaled model (see the module notes).

@@ -21,8 +21,11 @@
 //!   605–610): ŷ = (1/m)·Σᵢ g⁻¹(ẑ + eᵢ) over the m training residuals. The search reports; it
 //!   never changes the model.
 
+use std::sync::atomic::Ordering;
+
 use super::{
-    CheckOptions, CheckOutcome, Named, Verdict, VerdictLevel, Working, fmt4, least_squares, positive,
+    CheckOptions, CheckOutcome, Named, SearchControl, Verdict, VerdictLevel, Working, fmt4, least_squares,
+    positive,
 };
 use crate::dist;
 use crate::linalg::{PivotedQr, QrOptions};
@@ -904,25 +907,53 @@ fn candidate_summary(w: &Working, cols: &[usize], spec: &Spec, alpha: f64) -> Op
     })
 }
 
-/// The transformation search on the working model (see the module notes).
+/// Counts the steps of a search and reports each one to the caller's progress callback.
+struct Steps<'a> {
+    done: usize,
+    total: usize,
+    control: SearchControl<'a>,
+}
+
+impl Steps<'_> {
+    /// Whether the caller raised the cancel flag.
+    fn cancelled(&self) -> bool {
+        self.control.cancel.is_some_and(|c| c.load(Ordering::Relaxed))
+    }
+
+    /// Marks one more step as finished.
+    fn step(&mut self) {
+        self.done = (self.done + 1).min(self.total);
+        if let Some(f) = self.control.progress {
+            f(self.done, self.total);
+        }
+    }
+}
+
+/// The search was stopped by its cancel flag.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct Cancelled;
+
+/// The transformation search on the working model (see the module notes). It stops with
+/// [`Cancelled`] between two candidates once the control's cancel flag is raised.
 pub(crate) fn search(
     w: &Working,
     profile: &CheckOutcome<PowerProfile>,
     opts: &CheckOptions,
-) -> CheckOutcome<TransformSearch> {
+    control: SearchControl<'_>,
+) -> std::result::Result<CheckOutcome<TransformSearch>, Cancelled> {
     let k = opts.cv_folds();
     let n = w.n;
     if n < k {
-        return CheckOutcome::Unavailable(format!(
+        return Ok(CheckOutcome::Unavailable(format!(
             "{k}-fold cross-validation needs at least {k} rows; there are {n}"
-        ));
+        )));
     }
     let largest_fold = n.div_ceil(k);
     if n - largest_fold <= w.p {
-        return CheckOutcome::Unavailable(format!(
+        return Ok(CheckOutcome::Unavailable(format!(
             "with {n} rows, a {k}-fold training set is too small for {} coefficients",
             w.p
-        ));
+        )));
     }
     let mut notes = Vec::new();
     let cols: Vec<usize> = w
@@ -964,25 +995,37 @@ pub(crate) fn search(
     let folds = fold_assignment(n, k, opts.cv_seed());
     let mut combined_present = false;
     let base = vec![1.0; cols.len()];
+    // Every tried specification is one step (a repeated one too, though it is not evaluated
+    // again), then one step per place among the top candidates that get a summary.
+    let per_response = 1 + cols.len() * (LADDER.len() - 1) + usize::from(cols.len() > 1);
+    let tried = responses.len() * per_response;
+    let mut steps = Steps { done: 0, total: tried + opts.top_candidates().min(tried), control };
     let mut evaluated: Vec<(Spec, std::result::Result<f64, String>)> = Vec::new();
     let mut seen: Vec<(f64, Vec<f64>)> = Vec::new();
-    let mut evaluate = |spec: Spec, evaluated: &mut Vec<(Spec, std::result::Result<f64, String>)>| {
-        let key = (spec.response_power, spec.powers.clone());
-        if seen.contains(&key) {
-            return;
+    let mut evaluate = |spec: Spec,
+                        evaluated: &mut Vec<(Spec, std::result::Result<f64, String>)>,
+                        steps: &mut Steps<'_>|
+     -> std::result::Result<(), Cancelled> {
+        if steps.cancelled() {
+            return Err(Cancelled);
         }
-        seen.push(key);
-        let r = cv_rmse(w, &cols, &spec, &folds, k);
-        evaluated.push((spec, r));
+        let key = (spec.response_power, spec.powers.clone());
+        if !seen.contains(&key) {
+            seen.push(key);
+            let r = cv_rmse(w, &cols, &spec, &folds, k);
+            evaluated.push((spec, r));
+        }
+        steps.step();
+        Ok(())
     };
     for &rp in &responses {
         let start = evaluated.len();
-        evaluate(Spec { response_power: rp, powers: base.clone() }, &mut evaluated);
+        evaluate(Spec { response_power: rp, powers: base.clone() }, &mut evaluated, &mut steps)?;
         for c in 0..cols.len() {
             for &pw in LADDER.iter().filter(|&&pw| pw != 1.0) {
                 let mut powers = base.clone();
                 powers[c] = pw;
-                evaluate(Spec { response_power: rp, powers }, &mut evaluated);
+                evaluate(Spec { response_power: rp, powers }, &mut evaluated, &mut steps)?;
             }
         }
         // Each column at its best single power, all together.
@@ -1006,7 +1049,7 @@ pub(crate) fn search(
             if combined.iter().filter(|&&p| p != 1.0).count() > 1 {
                 combined_present = true;
             }
-            evaluate(Spec { response_power: rp, powers: combined }, &mut evaluated);
+            evaluate(Spec { response_power: rp, powers: combined }, &mut evaluated, &mut steps)?;
         }
     }
     if combined_present {
@@ -1038,8 +1081,13 @@ pub(crate) fn search(
             format!("response {}", power_label("y", spec.response_power))
         };
         let is_current = spec.response_power == 1.0 && spec.powers.iter().all(|&p| p == 1.0);
-        let summary = if rank0 < opts.top_candidates() && res.is_ok() {
-            candidate_summary(w, &cols, spec, opts.alpha())
+        let summary = if rank0 < opts.top_candidates() {
+            if steps.cancelled() {
+                return Err(Cancelled);
+            }
+            let summary = if res.is_ok() { candidate_summary(w, &cols, spec, opts.alpha()) } else { None };
+            steps.step();
+            summary
         } else {
             None
         };
@@ -1054,7 +1102,11 @@ pub(crate) fn search(
             summary,
         });
     }
-    CheckOutcome::Ok(TransformSearch {
+    // Repeated specifications leave fewer places than counted; finish the count step by step.
+    while steps.done < steps.total {
+        steps.step();
+    }
+    Ok(CheckOutcome::Ok(TransformSearch {
         criterion: format!(
             "{k}-fold cross-validated RMSE on the response scale of the model{}; transformed responses back-transformed with Duan's smearing estimate",
             if w.weights.is_some() { ", weighted by the case weights" } else { "" }
@@ -1064,5 +1116,5 @@ pub(crate) fn search(
         searched: cols.iter().map(|&j| w.names[j].clone()).collect(),
         candidates,
         notes,
-    })
+    }))
 }

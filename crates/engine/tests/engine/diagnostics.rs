@@ -778,3 +778,90 @@ fn demo_arena_is_flagged_and_vacancy_wants_a_log() {
     let current = search.candidates().iter().find(|c| c.is_current()).expect("current");
     assert!(best_vacancy.rank() < current.rank(), "{} vs current", best_vacancy.label());
 }
+
+/// The planted-log data of `search_finds_a_planted_log_and_never_changes_the_model`, fitted.
+fn planted_log_fit() -> Fit {
+    let mut s = 7u64;
+    let n = 80;
+    let x1: Vec<f64> = (0..n).map(|_| 10f64.powf(2.0 * lcg(&mut s))).collect();
+    let x2: Vec<f64> = (0..n).map(|_| 1.0 + 9.0 * lcg(&mut s)).collect();
+    let y: Vec<f64> =
+        (0..n).map(|i| 5.0 + 4.0 * x1[i].ln() + 0.3 * x2[i] + 0.2 * (lcg(&mut s) - 0.5)).collect();
+    let d = Design::from_matrix(
+        Matrix::from_columns(&[x1, x2]),
+        y,
+        None,
+        vec!["x1".into(), "x2".into()],
+        keys(n),
+        true,
+    )
+    .expect("design");
+    Fit::new(&d, &FitOptions::default()).expect("fit")
+}
+
+#[test]
+fn search_on_its_own_matches_the_checks_and_reports_every_step() {
+    // The stand-alone search with other options equals the search inside `run` with the same
+    // options, and its progress callback sees 1, 2, …, total with a constant total.
+    let fit = planted_log_fit();
+    for (folds, seed, top) in [(10, 20_250_601, 3), (5, 99, 0), (4, 7, 20)] {
+        let opts = CheckOptions::default()
+            .with_cv_folds(folds)
+            .expect("folds")
+            .with_cv_seed(seed)
+            .with_lambda_range(-2.0, 2.5)
+            .expect("range")
+            .with_top_candidates(top)
+            .expect("top");
+        let seen = std::sync::Mutex::new(Vec::new());
+        let progress = |done: usize, total: usize| seen.lock().expect("lock").push((done, total));
+        let control = diagnostics::SearchControl { progress: Some(&progress), cancel: None };
+        let alone = diagnostics::transform_search(&fit, &opts, control).expect("not cancelled");
+        let alone = ok(&alone, "search alone");
+        let inside = diagnostics::run(&fit, &opts);
+        let inside = ok(inside.search(), "search in run");
+        assert_eq!(alone, inside);
+        assert_eq!((alone.folds(), alone.seed()), (folds, seed));
+        let summaries = alone.candidates().iter().filter(|c| c.summary().is_some()).count();
+        assert_eq!(summaries, top.min(alone.candidates().len()));
+        let seen = seen.into_inner().expect("lock");
+        let total = seen.last().expect("some steps").1;
+        // Two searched columns, the response as is only: 1 + 2·5 + 1 tried, plus the summaries.
+        assert_eq!(total, 12 + top.min(12));
+        assert_eq!(seen, (1..=total).map(|d| (d, total)).collect::<Vec<_>>());
+    }
+}
+
+#[test]
+fn search_on_its_own_stops_when_cancelled() {
+    let fit = planted_log_fit();
+    let opts = CheckOptions::default();
+    // Raised before the start: no step runs.
+    let flag = std::sync::atomic::AtomicBool::new(true);
+    let calls = std::sync::atomic::AtomicUsize::new(0);
+    let count = |_: usize, _: usize| {
+        calls.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+    };
+    let control = diagnostics::SearchControl { progress: Some(&count), cancel: Some(&flag) };
+    let r = diagnostics::transform_search(&fit, &opts, control);
+    assert!(matches!(r, Err(wardcast_engine::EngineError::Cancelled)), "{r:?}");
+    assert_eq!(calls.load(std::sync::atomic::Ordering::Relaxed), 0);
+    // Raised from the progress callback after the third step: the search stops right there.
+    let flag = std::sync::atomic::AtomicBool::new(false);
+    let last = std::sync::atomic::AtomicUsize::new(0);
+    let raise = |done: usize, _: usize| {
+        last.store(done, std::sync::atomic::Ordering::Relaxed);
+        if done == 3 {
+            flag.store(true, std::sync::atomic::Ordering::Relaxed);
+        }
+    };
+    let control = diagnostics::SearchControl { progress: Some(&raise), cancel: Some(&flag) };
+    let r = diagnostics::transform_search(&fit, &opts, control);
+    assert!(matches!(r, Err(wardcast_engine::EngineError::Cancelled)), "{r:?}");
+    assert_eq!(last.load(std::sync::atomic::Ordering::Relaxed), 3);
+    // An unraised flag changes nothing.
+    let flag = std::sync::atomic::AtomicBool::new(false);
+    let control = diagnostics::SearchControl { progress: None, cancel: Some(&flag) };
+    let r = diagnostics::transform_search(&fit, &opts, control).expect("finishes");
+    assert_eq!(ok(&r, "search"), ok(diagnostics::run(&fit, &opts).search(), "search"));
+}

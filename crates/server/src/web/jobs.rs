@@ -338,7 +338,12 @@ async fn page(State(ctx): State<Ctx>, Path(id): Path<String>) -> Result<Response
         ctx.shared(),
         analysis.id(),
         analysis.name(),
-        super::pages::Section::Contenders,
+        // The page whose result the job computes stays marked in the navigation.
+        if job.result_href().contains("/soundness/") {
+            super::pages::Section::Soundness
+        } else {
+            super::pages::Section::Contenders
+        },
     );
     let mut response = render(&JobPage { layout, job: doc, percent });
     if matches!(job.state(), JobState::Running) {

@@ -10,11 +10,17 @@
 //!   by side. It computes a comparison and changes nothing, so it is a GET.
 //! - `GET /api/analyses/{id}/checks`: the checks document, exactly as `wardcast check` prints it.
 //! - `GET /api/analyses/{id}/soundness/without?key=…`: the comparison as JSON.
+//! - `POST /analyses/{id}/soundness/transform`: runs the transformation search again with other
+//!   settings as a background job; 303 to its progress page `/jobs/{job}`.
+//! - `GET /analyses/{id}/soundness/transform?job=…`: that job's ranked table (stable URL).
+//! - `POST /api/analyses/{id}/soundness/transform`: the same from JSON options; 202 with the job
+//!   document, whose `result` (at `/api/jobs/{job}`) holds the search once done.
 //!
 //! Every number on the page comes from the cached [`ChecksDocument`] (or, for the comparison,
 //! from the two fit documents) and carries its full-precision value in `<data value>`.
 
 mod charts;
+mod transform;
 mod without;
 
 use askama::Template;
@@ -22,9 +28,9 @@ use axum::Json;
 use axum::Router;
 use axum::extract::{Path, State};
 use axum::response::Response;
-use axum::routing::get;
+use axum::routing::{get, post};
 use wardcast_contract::checks::{
-    ChecksDocument, InfluenceDoc, InfluenceRowDoc, NamedOutcome, Outcome, VerdictDoc,
+    ChecksDocument, InfluenceDoc, InfluenceRowDoc, NamedOutcome, Outcome, SearchDoc, VerdictDoc,
 };
 use wardcast_contract::numbers::Number;
 
@@ -42,6 +48,8 @@ pub(crate) fn routes() -> Router<Ctx> {
         .route("/analyses/{id}/soundness/without", get(without::page))
         .route("/api/analyses/{id}/checks", get(checks_json))
         .route("/api/analyses/{id}/soundness/without", get(without::json))
+        .route("/analyses/{id}/soundness/transform", get(transform::page).post(transform::form_start))
+        .route("/api/analyses/{id}/soundness/transform", post(transform::api_start))
 }
 
 /// One verdict as shown: level, test, numbers, threshold and sentence.
@@ -281,6 +289,30 @@ pub struct CandidateRow {
     pub note: String,
 }
 
+/// The candidates of a search as table rows: the first `shown` (plus the model as specified,
+/// always, for comparison) and the rest.
+pub(crate) fn candidate_rows(search: &SearchDoc, shown: usize) -> (Vec<CandidateRow>, Vec<CandidateRow>) {
+    let mut top: Vec<CandidateRow> = search
+        .candidates
+        .iter()
+        .map(|c| CandidateRow {
+            rank: c.rank,
+            label: c.label.clone(),
+            current: c.current,
+            cv_rmse: Figure::from_number(c.cv_rmse),
+            r_squared: c.summary.as_ref().map(|s| Figure::new(s.r_squared)),
+            shapiro_p: c.summary.as_ref().map(|s| Figure::from_number(s.shapiro_p)),
+            bp_p: c.summary.as_ref().map(|s| Figure::from_number(s.breusch_pagan_p)),
+            note: c.note.clone().unwrap_or_default(),
+        })
+        .collect();
+    let mut rest = top.split_off(top.len().min(shown));
+    if let Some(i) = rest.iter().position(|c| c.current) {
+        top.push(rest.remove(i));
+    }
+    (top, rest)
+}
+
 /// The Soundness page.
 #[derive(Debug, Template)]
 #[template(path = "soundness.html")]
@@ -337,6 +369,8 @@ pub struct SoundnessPage {
     pub search_notes: Vec<String>,
     /// Why the search is missing.
     pub search_missing: String,
+    /// The form that runs the search again with other settings, at the defaults.
+    pub search_form: transform::TransformForm,
 }
 
 /// A condition index from which a near-dependency can harm the estimates, and the variance
@@ -609,36 +643,16 @@ impl SoundnessPage {
                 },
             })
             .collect();
-        let (search_criterion, mut search_top, search_notes, search_missing) =
+        let (search_criterion, search_top, search_rest, search_notes, search_missing) =
             match &doc.transformations.search {
-                Outcome::Ok { result } => (
-                    result.criterion.clone(),
-                    result
-                        .candidates
-                        .iter()
-                        .map(|c| CandidateRow {
-                            rank: c.rank,
-                            label: c.label.clone(),
-                            current: c.current,
-                            cv_rmse: Figure::from_number(c.cv_rmse),
-                            r_squared: c.summary.as_ref().map(|s| Figure::new(s.r_squared)),
-                            shapiro_p: c.summary.as_ref().map(|s| Figure::from_number(s.shapiro_p)),
-                            bp_p: c.summary.as_ref().map(|s| Figure::from_number(s.breusch_pagan_p)),
-                            note: c.note.clone().unwrap_or_default(),
-                        })
-                        .collect::<Vec<_>>(),
-                    result.notes.clone(),
-                    String::new(),
-                ),
+                Outcome::Ok { result } => {
+                    let (top, rest) = candidate_rows(result, SEARCH_SHOWN);
+                    (result.criterion.clone(), top, rest, result.notes.clone(), String::new())
+                }
                 Outcome::Unavailable { reason } => {
-                    (String::new(), Vec::new(), Vec::new(), format!("Not available: {reason}."))
+                    (String::new(), Vec::new(), Vec::new(), Vec::new(), format!("Not available: {reason}."))
                 }
             };
-        let mut search_rest = search_top.split_off(search_top.len().min(SEARCH_SHOWN));
-        // The model as specified is always in the first table, for comparison.
-        if let Some(i) = search_rest.iter().position(|c| c.current) {
-            search_top.push(search_rest.remove(i));
-        }
 
         SoundnessPage {
             layout: Layout::analysis(
@@ -677,6 +691,7 @@ impl SoundnessPage {
             search_rest,
             search_notes,
             search_missing,
+            search_form: transform::TransformForm::defaults(),
         }
     }
 
