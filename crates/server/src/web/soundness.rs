@@ -36,7 +36,7 @@ use wardcast_contract::numbers::Number;
 
 use super::Ctx;
 use super::effects::Figure;
-use super::pages::{Layout, Section, render, section_href};
+use super::pages::{Layout, Section, html, page_key, render_string, section_href};
 use super::state::Analysis;
 use super::words::{fmt_num, fmt_p, fmt_prose};
 use crate::error::{ApiError, Result};
@@ -704,7 +704,13 @@ impl SoundnessPage {
 /// `GET /analyses/{id}/soundness`: the Soundness page.
 pub async fn page(State(ctx): State<Ctx>, Path(id): Path<String>) -> Result<Response> {
     let (analysis, checked) = ctx.checked(&id).await?;
-    Ok(render(&SoundnessPage::build(&analysis, &checked.document, ctx.shared())))
+    let shared = ctx.shared();
+    // The page depends only on the immutable analysis and the frame flags in the key; a room
+    // full of browsers costs one render.
+    let text = analysis.cached_page(&page_key("soundness", shared), || {
+        render_string(&SoundnessPage::build(&analysis, &checked.document, shared))
+    })?;
+    Ok(html(&text))
 }
 
 /// `GET /api/analyses/{id}/checks`: the checks document, exactly as `wardcast check` prints it.
