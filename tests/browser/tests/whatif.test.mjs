@@ -58,7 +58,7 @@ test('a district with a changed indicator: the page shows the JSON API numbers',
   await page.goto(page_url);
   await page.selectOption('#area-choice', 'LK-20');
   await Promise.all([page.waitForURL(/area=LK-20/), page.click('text=Use its values')]);
-  const field = page.locator('input[name="x.unemployment_pct"]');
+  const field = page.locator('.whatif-values input[name="x.unemployment_pct"]');
   assert.notEqual(await field.inputValue(), '', 'the district\'s value is prefilled');
   await field.fill('9.5');
   await Promise.all([page.waitForURL(/x\.unemployment_pct=9\.5/), page.click('button:has-text("Predict")')]);
@@ -149,6 +149,57 @@ test('an allocation through the form: amounts equal the JSON and sum to the tota
   const text = await page.locator('#allocation-result').innerText();
   assert.ok(text.includes('prevention and service funding'), 'framed as prevention and service funding');
   assert.ok(text.includes('no current budget'), 'districts without a budget row are marked');
+  assert.deepEqual(problems, [], 'no console errors, failed responses or CSP violations');
+  await page.close();
+});
+
+test('a scenario added to the brief: the Brief page shows its row with the same numbers', async () => {
+  const { page, problems } = await watchedPage();
+  await page.goto(`${page_url}?area=LK-20&x.unemployment_pct=9.5`);
+  const oneText = await page.locator('#one-result').innerText();
+  assert.ok(oneText.includes('below zero'), 'the negative prediction is named beside the result');
+  await Promise.all([
+    page.waitForURL(/#kept$/),
+    page.locator('#one-result').getByRole('button', { name: 'Add to the brief' }).click(),
+  ]);
+
+  const response = await page.request.get(`${base}/api/analyses/larkmoor/what-if/kept`);
+  assert.equal(response.status(), 200);
+  const kept = await response.json();
+  assert.ok(kept.length >= 1, 'the scenario is kept');
+  const doc = kept[kept.length - 1];
+  assert.equal(doc.one_area.area, 'LK-20');
+  const want = predictionNumbers(doc.one_area.prediction);
+
+  // The kept list on the What-if page: the last row carries the same numbers.
+  const listed = await page.$$eval('tr.whatif-kept-row', (trs) =>
+    [...trs[trs.length - 1].querySelectorAll('data')].map((d) => Number(d.getAttribute('value'))));
+  assert.equal(listed.length, want.length);
+  want.forEach((v, i) => assert.ok(close(listed[i], v), `kept figure ${i}: ${listed[i]} against ${v}`));
+  await page.locator('#kept').scrollIntoViewIfNeeded();
+  await page.screenshot({ path: path.join(shots, 'whatif-kept.png'), fullPage: false });
+
+  // The Brief page: the scenario table's row for this scenario, to 1e-12.
+  await page.goto(`${base}/analyses/larkmoor/brief`);
+  const rows = await page.$$eval('table', (tables) => {
+    const t = tables.find((x) => (x.querySelector('caption')?.textContent ?? '').startsWith('Kept what-if scenarios'));
+    if (!t) return null;
+    return [...t.querySelectorAll('tbody tr')].map((tr) => ({
+      text: tr.textContent,
+      values: [...tr.querySelectorAll('data')].map((d) => Number(d.getAttribute('value'))),
+    }));
+  });
+  assert.ok(rows, 'the brief has a table of kept scenarios');
+  assert.equal(rows.length, kept.flatMap((k) => [k.one_area, k.all_areas].filter((x) => x)).length);
+  const row = rows[rows.length - 1];
+  assert.ok(row.text.includes('LK-20 with unemployment 9.5 instead of'), row.text);
+  assert.equal(row.values.length, want.length);
+  want.forEach((v, i) => assert.ok(close(row.values[i], v), `brief figure ${i}: ${row.values[i]} against ${v}`));
+  const brief = await page.locator('main').innerText();
+  assert.ok(brief.includes('are predicted to have the values below'), 'non-causal wording in the brief');
+  assert.ok(brief.includes('cannot go below zero'), 'the brief names the negative prediction');
+  await page.locator('text=What-if scenarios').first().scrollIntoViewIfNeeded();
+  await page.screenshot({ path: path.join(shots, 'whatif-kept-brief.png'), fullPage: false });
   assert.deepEqual(problems, [], 'no console errors, failed responses or CSP violations');
   await page.close();
 });

@@ -7,8 +7,8 @@ use wardcast_contract::spec::{PredictorSpec, TransformSpec};
 use wardcast_engine::dist::t_quantile;
 
 use super::text::{
-    INTERVAL_MEANING, OPTIMISTIC_P, direction, fmt_amount, fmt_coef, fmt_fixed, fmt_p, fmt_share, fmt_sig,
-    in_sentence, join_and, readable_step, step_words,
+    INTERVAL_MEANING, NEGATIVE_PREDICTION, OPTIMISTIC_P, any_negative, direction, fmt_amount, fmt_coef,
+    fmt_fixed, fmt_p, fmt_share, fmt_sig, in_sentence, join_and, readable_step, step_words,
 };
 use super::{
     Block, Brief, BriefInput, CautionText, Cell, Figure, LIMITATIONS_HEADING, Limitations, Section,
@@ -1026,19 +1026,92 @@ A district outside its interval is not a problem or a failure: it differs from w
             })
             .collect(),
     }));
+    if ctx.fit.spec.response_transform.is_none()
+        && any_negative(rows.iter().flat_map(|r| [r.expected, r.low, r.high]))
+    {
+        blocks.push(para(NEGATIVE_PREDICTION));
+    }
     Ok(section(SectionKind::Districts, "7. Districts", blocks))
 }
 
+/// The kept what-if scenarios: a framing paragraph, one table row per scenario with both
+/// intervals, and the note on negative predictions when one applies.
+fn scenario_blocks(ctx: &Ctx<'_>) -> Vec<Block> {
+    let scenarios = &ctx.input.scenarios;
+    if scenarios.is_empty() {
+        return Vec::new();
+    }
+    let level = ctx.level_words();
+    let mut blocks = vec![
+        Block::Subheading("What-if scenarios".into()),
+        para(format!(
+            "Districts that differ from the data in the way each row describes are predicted to have the values below, with the {level} interval for the mean of such districts and, for a single such district, the wider {level} prediction interval. \
+These compare districts with different indicator values; they are not estimates of what changing an indicator would do, because the model compares districts at one time and follows none through a change."
+        )),
+    ];
+    let interval = |x: Option<f64>| x.map_or(Cell::Empty, |v| Cell::number(v, fmt_sig(v, 4)));
+    let rows = scenarios
+        .iter()
+        .map(|s| {
+            vec![
+                Cell::text(&s.description),
+                Cell::text(&s.predicts),
+                Cell::number(s.predicted, fmt_sig(s.predicted, 4)),
+                Cell::number(s.mean_low, fmt_sig(s.mean_low, 4)),
+                Cell::number(s.mean_high, fmt_sig(s.mean_high, 4)),
+                interval(s.new_low),
+                interval(s.new_high),
+                Cell::text(if s.beyond_data {
+                    format!("yes: {}", s.extrapolation)
+                } else if s.extrapolation.is_empty() {
+                    "no".to_owned()
+                } else {
+                    format!("no; {}", s.extrapolation)
+                }),
+            ]
+        })
+        .collect();
+    blocks.push(Block::Table(Table {
+        name: "scenarios".into(),
+        caption: format!("Kept what-if scenarios with {level} intervals"),
+        columns: [
+            "Scenario",
+            "Predicted for",
+            "Predicted",
+            "Mean interval low",
+            "Mean interval high",
+            "Single-district interval low",
+            "Single-district interval high",
+            "Beyond the data",
+        ]
+        .map(String::from)
+        .to_vec(),
+        rows,
+    }));
+    if scenarios.iter().any(|s| s.beyond_data) {
+        blocks.push(para(
+            "A scenario beyond the data combines values unlike any district the model was fitted on; its intervals understate how little the data say about such a district.",
+        ));
+    }
+    if ctx.fit.spec.response_transform.is_none() && any_negative(scenarios.iter().flat_map(|s| s.values())) {
+        blocks.push(para(NEGATIVE_PREDICTION));
+    }
+    blocks
+}
+
 fn allocation_section(ctx: &Ctx<'_>) -> Section {
+    let mut blocks = scenario_blocks(ctx);
     let Some(a) = ctx.input.allocation.as_ref() else {
-        return section(
-            SectionKind::Allocation,
-            ALLOCATION_HEADING,
-            vec![para(
-                "No scenario or allocation was run for this analysis, so the brief proposes no amounts.",
-            )],
-        );
+        blocks.push(para(if blocks.is_empty() {
+            "No scenario or allocation was run for this analysis, so the brief proposes no amounts."
+        } else {
+            "No allocation was run for this analysis, so the brief proposes no amounts."
+        }));
+        return section(SectionKind::Allocation, ALLOCATION_HEADING, blocks);
     };
+    if !blocks.is_empty() {
+        blocks.push(Block::Subheading("Allocation".into()));
+    }
     let sum: f64 = a.rows.iter().map(|r| r.amount).sum();
     let rounding = if (sum - a.total).abs() < 0.5 {
         "Amounts are rounded so that they sum exactly to the total.".to_owned()
@@ -1050,12 +1123,12 @@ fn allocation_section(ctx: &Ctx<'_>) -> Section {
             fmt_amount(sum - a.total)
         )
     };
-    let mut blocks = vec![para(format!(
+    blocks.push(para(format!(
         "A transparent formula allocation of {} {} across districts for prevention and service funding, on the basis of {}. {rounding} The allocation divides funding between areas; it does not rank people.",
         fmt_amount(a.total),
         a.currency,
         a.chosen_basis,
-    ))];
+    )));
     let mut rules = Vec::new();
     if let Some(f) = a.floor {
         rules.push(format!("Floor per district: {} {}.", fmt_amount(f), a.currency));

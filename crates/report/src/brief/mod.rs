@@ -2,10 +2,11 @@
 //! CSV and XLSX.
 //!
 //! [`BriefInput`] gathers the contract documents of one analysis (fit, checks, model choice,
-//! allocation, column metadata, join report, checksums, spec) with the analyst's question and
-//! name, the date and the wardcast version. [`Brief::build`] turns it into eleven sections of
-//! plain blocks (paragraphs, lists, tables, charts); the renderers in [`html`], [`pdf`] and
-//! [`tables`] only lay those blocks out, so every format says the same thing.
+//! kept what-if scenarios, allocation, column metadata, join report, checksums, spec) with the
+//! analyst's question and name, the date and the wardcast version. [`Brief::build`] turns it
+//! into eleven sections of plain blocks (paragraphs, lists, tables, charts); the renderers in
+//! [`html`], [`pdf`] and [`tables`] only lay those blocks out, so every format says the same
+//! thing.
 //!
 //! The limitations section is not optional: [`BriefInput`] has no field that could switch it
 //! off (unknown fields are refused when it is read from JSON), [`Brief::build`] always writes
@@ -177,6 +178,46 @@ pub struct AllocationView {
     pub notes: Vec<String>,
 }
 
+/// A what-if scenario the analyst kept for the brief; the caller fills it from the scenario
+/// document. Every number is on the response's scale and is copied, never recomputed.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ScenarioView {
+    /// What differs, in words (e.g. "LK-20 with unemployment 9.5 instead of 3.6").
+    pub description: String,
+    /// What the prediction is for, in words (e.g. "a district with these values", "the average
+    /// over 62 districts").
+    pub predicts: String,
+    /// The predicted value.
+    pub predicted: f64,
+    /// Lower end of the confidence interval of the mean.
+    pub mean_low: f64,
+    /// Upper end of the confidence interval of the mean.
+    pub mean_high: f64,
+    /// Lower end of the prediction interval of a single area (one-area scenarios only).
+    #[serde(default)]
+    pub new_low: Option<f64>,
+    /// Upper end of the prediction interval of a single area (one-area scenarios only).
+    #[serde(default)]
+    pub new_high: Option<f64>,
+    /// Whether the scenario lies beyond the data (its leverage exceeds the largest in the data).
+    #[serde(default)]
+    pub beyond_data: bool,
+    /// The extrapolation flag in words; empty when the scenario lies within the data.
+    #[serde(default)]
+    pub extrapolation: String,
+}
+
+impl ScenarioView {
+    /// The numbers a reader could take for a rate: the prediction and every interval end.
+    pub fn values(&self) -> Vec<f64> {
+        let mut v = vec![self.predicted, self.mean_low, self.mean_high];
+        v.extend(self.new_low);
+        v.extend(self.new_high);
+        v
+    }
+}
+
 /// Everything the brief is built from. The CLI and the web Brief page both fill this.
 ///
 /// There is deliberately no field to leave out the limitations section.
@@ -202,6 +243,9 @@ pub struct BriefInput {
     /// The allocation scenario, when one was run.
     #[serde(default)]
     pub allocation: Option<AllocationView>,
+    /// What-if scenarios the analyst kept for the brief, oldest first.
+    #[serde(default)]
+    pub scenarios: Vec<ScenarioView>,
     /// Metadata of the table's columns (labels, units, sources, vintages).
     #[serde(default)]
     pub columns: Vec<ColumnMeta>,

@@ -157,6 +157,18 @@ assumptions; a wide interval means the data pin the association down poorly.";
 pub const OPTIMISTIC_P: &str = "The predictors were chosen after looking at the data, so the p-values and intervals \
 shown for the chosen model are optimistic: they do not account for the search, and the true uncertainty is larger.";
 
+/// The sentence shown wherever a predicted rate or an interval end is below zero. The numbers
+/// themselves are never clipped or altered.
+pub const NEGATIVE_PREDICTION: &str = "Some predicted values or interval ends here are below zero, which a rate \
+cannot be: the model is linear in the indicators and does not know that rates cannot go below zero, so read such a \
+prediction as near zero, or as a sign that the model does not fit there (setting a logged response on the set-up \
+form of the Data page is one remedy).";
+
+/// Whether any of `values` is below zero, so that [`NEGATIVE_PREDICTION`] applies.
+pub fn any_negative(values: impl IntoIterator<Item = f64>) -> bool {
+    values.into_iter().any(|x| x < 0.0)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

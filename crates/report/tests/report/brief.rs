@@ -12,8 +12,8 @@ use std::process::Command;
 
 use wardcast_report::brief::text::{fmt_coef, fmt_fixed};
 use wardcast_report::brief::{
-    AllocationRow, AllocationView, Brief, BriefInput, CautionText, Limitations, SectionKind, html, pdf,
-    tables,
+    AllocationRow, AllocationView, Brief, BriefInput, CautionText, Limitations, ScenarioView, SectionKind,
+    html, pdf, tables,
 };
 
 /// The section headings in their fixed order.
@@ -463,4 +463,119 @@ fn pdf_first_page_renders_to_png() {
     let png = std::fs::read(artifacts().join("brief-page1.png")).expect("page 1 was rendered");
     assert!(png.starts_with(b"\x89PNG"), "not a PNG");
     assert!(png.len() > 5_000, "page 1 looks blank: {} bytes", png.len());
+}
+
+/// Two kept scenarios: one area whose single-area interval reaches below zero, and a shifted
+/// average beyond the data; the first description starts like a formula.
+fn kept_scenarios() -> Vec<ScenarioView> {
+    vec![
+        ScenarioView {
+            description: "=LK-20 with unemployment 9.5 instead of 3.6".into(),
+            predicts: "a district with these values".into(),
+            predicted: 9.371_607_801_141_712,
+            mean_low: 27.046_144_846_336_205,
+            mean_high: 45.789_360_448_619_63,
+            new_low: Some(-65.553_645_631_389_26),
+            new_high: Some(84.296_861_233_672_67),
+            beyond_data: false,
+            extrapolation: String::new(),
+        },
+        ScenarioView {
+            description: "Every district with unemployment lower by 1 percentage point".into(),
+            predicts: "the average over the 62 districts in the model".into(),
+            predicted: 53.828_121_989_123_844,
+            mean_low: 44.235_312_625_172_36,
+            mean_high: 63.420_931_353_075_325,
+            new_low: None,
+            new_high: None,
+            beyond_data: true,
+            extrapolation: "beyond the data for 1 of the 62 shifted districts (LK-47)".into(),
+        },
+    ]
+}
+
+#[test]
+fn kept_scenarios_appear_before_the_allocation_with_their_intervals() {
+    use wardcast_report::brief::text::{NEGATIVE_PREDICTION, fmt_sig};
+    let mut input = demo::demo_input();
+    let plain = html::render(&Brief::build(&input).expect("builds")).expect("renders");
+    let baseline = plain.matches(NEGATIVE_PREDICTION).count();
+    input.scenarios = kept_scenarios();
+    let brief = Brief::build(&input).expect("builds");
+    let page = html::render(&brief).expect("renders");
+    let at = positions(
+        &page,
+        &[
+            "7. Districts",
+            "8. Scenarios and allocation",
+            "What-if scenarios",
+            "Kept what-if scenarios",
+            "No allocation was run",
+            "9. Limitations and cautions",
+        ],
+    );
+    assert!(at.windows(2).all(|w| w[0] < w[1]), "{at:?}");
+    assert!(!page.contains("No scenario or allocation was run"));
+    assert!(page.contains("are predicted to have the values below"));
+    for s in &input.scenarios {
+        for v in s.values() {
+            assert!(page.contains(&format!(">{}</td>", fmt_sig(v, 4))), "the HTML prints {v}");
+        }
+    }
+    assert!(page.contains("yes: beyond the data for 1 of the 62 shifted districts (LK-47)"));
+    // The first scenario reaches below zero: the sentence appears once more than without it.
+    assert_eq!(page.matches(NEGATIVE_PREDICTION).count(), baseline + 1);
+    // Above zero everywhere: no extra sentence.
+    let mut positive = input.clone();
+    positive.scenarios[0].new_low = Some(1.5);
+    let page = html::render(&Brief::build(&positive).expect("builds")).expect("renders");
+    assert_eq!(page.matches(NEGATIVE_PREDICTION).count(), baseline);
+    // The exports carry the table, with numbers kept and the formula-like text neutralised.
+    let csv = tables::to_csv(&brief).expect("csv");
+    let rows: Vec<&str> = csv.lines().filter(|l| l.starts_with("scenarios,")).collect();
+    assert_eq!(rows.len(), 2, "{csv}");
+    assert!(rows[0].contains("'=LK-20 with unemployment"), "{}", rows[0]);
+    assert!(rows[0].contains("9.371607801141712") && rows[0].contains("-65.55364563138926"), "{}", rows[0]);
+    assert!(!tables::to_xlsx(&brief).expect("xlsx").is_empty());
+    // With an allocation too, the scenarios come first and the allocation follows.
+    input.allocation = Some(AllocationView::from_document(
+        &demo::demo_allocation(3_000_000, wardcast_engine::allocation::Basis::Expected),
+        "marks",
+    ));
+    let page = html::render(&Brief::build(&input).expect("builds")).expect("renders");
+    let at = positions(&page, &["Kept what-if scenarios", "A transparent formula allocation"]);
+    assert!(at[0] < at[1]);
+    assert!(!page.contains("No allocation was run"));
+}
+
+#[test]
+fn old_brief_input_without_scenarios_still_reads() {
+    let input = demo::demo_input();
+    let mut json = serde_json::to_value(&input).expect("serialises");
+    json.as_object_mut().expect("object").remove("scenarios");
+    let back: BriefInput = serde_json::from_value(json).expect("reads without the field");
+    assert_eq!(back, input);
+}
+
+#[test]
+#[ignore = "needs pdftotext (poppler-utils): run by .ci/run"]
+fn pdf_with_kept_scenarios_shows_their_heading_and_numbers() {
+    use wardcast_report::brief::text::fmt_sig;
+    let mut input = demo::demo_input();
+    input.scenarios = kept_scenarios();
+    let brief = Brief::build(&input).expect("builds");
+    let path = artifacts().join("brief-scenarios.pdf");
+    std::fs::write(&path, pdf::render(&brief, &pdf::PdfOptions::default()).expect("renders"))
+        .expect("written");
+    let out = run(Command::new("pdftotext").arg("-enc").arg("UTF-8").arg(&path).arg("-"), "pdftotext");
+    let text = String::from_utf8(out.stdout).expect("UTF-8 text");
+    let joined = text.split_whitespace().collect::<Vec<_>>().join(" ");
+    assert!(joined.contains("What-if scenarios"), "no scenario heading");
+    assert!(joined.contains("Kept what-if scenarios"), "no scenario table");
+    for s in &input.scenarios {
+        for v in s.values() {
+            let shown = fmt_sig(v, 4);
+            assert!(joined.contains(&shown), "the number {shown} is missing");
+        }
+    }
 }

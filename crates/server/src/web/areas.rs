@@ -24,6 +24,7 @@ use wardcast_contract::areas::{AreaRow, AreasDocument};
 use wardcast_contract::dataset::ColumnRole;
 use wardcast_engine::ColumnData;
 use wardcast_engine::areas::deleted_intervals;
+use wardcast_report::brief::text::{NEGATIVE_PREDICTION, any_negative};
 use wardcast_report::svg::{Axis, Chart, Emphasis, IntervalStrip, StripRow};
 
 use super::Ctx;
@@ -337,6 +338,12 @@ impl AreasPage {
                 "The model works on {}, so observed, predicted and interval values are on that scale.",
                 doc.response
             ));
+        }
+        let linear = analysis.spec().response_transform.is_none();
+        let below_zero =
+            doc.rows.iter().flat_map(|r| [Some(r.predicted), r.low.as_f64(), r.high.as_f64()]).flatten();
+        if linear && any_negative(below_zero) {
+            notes.push(NEGATIVE_PREDICTION.to_owned());
         }
         let unit = response.unit.clone().unwrap_or_default();
         let mut by_prediction: Vec<&AreaRow> = doc.rows.iter().collect();

@@ -156,7 +156,7 @@ pub fn budget_currency(columns: &[ColumnMeta]) -> String {
 }
 
 /// Turns an analysis into the brief's input: its fit document, the checks document, the model
-/// choice and allocation from its extras, the column metadata, join report, checksums and
+/// choice, the kept what-if scenarios and the allocation from its extras, the column metadata, join report, checksums and
 /// notes of its source, and the question and author from its extras. The district
 /// predictions are left to the brief, which computes them from the fit document.
 ///
@@ -199,6 +199,11 @@ pub fn brief_input(
         checks: Some(checks.clone()),
         model_choice: extras.model_choice,
         allocation: extras.allocation.as_ref().map(|doc| AllocationView::from_document(doc, &currency)),
+        scenarios: extras
+            .scenarios
+            .iter()
+            .flat_map(|doc| super::whatif::brief_scenarios(analysis, doc))
+            .collect(),
         columns: source.columns.clone(),
         join: source.join.clone(),
         checksums: source.checksums.clone(),

@@ -13,6 +13,7 @@ use wardcast_contract::allocation::AllocationDocument;
 use wardcast_contract::checks::ChecksDocument;
 use wardcast_contract::dataset::{ColumnMeta, JoinReport};
 use wardcast_contract::fit::FitDocument;
+use wardcast_contract::scenario::ScenarioDocument;
 use wardcast_contract::spec::ModelSpec;
 use wardcast_engine::Table;
 use wardcast_engine::diagnostics::Checks;
@@ -181,6 +182,9 @@ pub struct CheckedModel {
     pub document: ChecksDocument,
 }
 
+/// The most what-if scenarios an analysis keeps for its brief.
+pub const KEPT_SCENARIOS_MAX: usize = 20;
+
 /// What the analyst adds to an analysis after fitting it: the model-choice results, the
 /// allocation and the brief's question. Pages read a copy; the page that produces a part
 /// replaces it. Kept behind a lock inside [`Analysis`], never held across an `.await`.
@@ -191,6 +195,9 @@ pub struct Extras {
     pub model_choice: Option<ModelChoice>,
     /// The latest allocation scenario run on the What-if page.
     pub allocation: Option<AllocationDocument>,
+    /// The what-if scenarios the analyst kept for the brief, oldest first; at most
+    /// [`KEPT_SCENARIOS_MAX`], the oldest dropped first.
+    pub scenarios: Vec<ScenarioDocument>,
     /// The decision question for the brief.
     pub question: Option<String>,
     /// The analyst's name for the brief.

@@ -8,9 +8,15 @@
 //! | `POST /api/analyses/{id}/what-if/predict`      | scenario document (JSON)                    |
 //! | `POST /api/analyses/{id}/what-if/allocate`     | allocation document (JSON), also stored     |
 //! | `GET /api/analyses/{id}/what-if/allocation`    | the latest allocation document              |
+//! | `POST /analyses/{id}/what-if/keep`             | keeps a scenario for the brief, 303 back    |
+//! | `POST /analyses/{id}/what-if/forget`           | removes a kept scenario, 303 back           |
+//! | `POST /api/analyses/{id}/what-if/keep`         | keeps a scenario (JSON), 201 with the list  |
+//! | `GET /api/analyses/{id}/what-if/kept`          | the kept scenario documents                 |
 //!
 //! Computing a prediction changes nothing, so the scenario forms are GET forms and every result
-//! has a stable address. An allocation is stored on the analysis for the brief, so it is a POST.
+//! has a stable address. An allocation is stored on the analysis for the brief, so it is a POST,
+//! and so is keeping a scenario for the brief: the kept scenario is recomputed on the server from
+//! its settings, never taken from posted numbers.
 
 pub mod allocation;
 pub mod scenario;
@@ -23,7 +29,8 @@ use axum::Router;
 use axum::body::Body;
 use axum::extract::rejection::{FormRejection, QueryRejection};
 use axum::extract::{Form, Path, Query, State};
-use axum::response::Response;
+use axum::http::StatusCode;
+use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
 use wardcast_contract::allocation::{AllocationDocument, BlendWeightsDoc};
 use wardcast_contract::fit::PredictionDoc;
@@ -31,11 +38,13 @@ use wardcast_contract::scenario::{
     AllocationRequest, AverageDoc, DifferenceDoc, OneAreaDoc, ScenarioDocument, ScenarioRequest, ShiftDoc,
     ShiftOperation, ValueDoc,
 };
+use wardcast_report::brief::ScenarioView as BriefScenario;
+use wardcast_report::brief::text::{NEGATIVE_PREDICTION, any_negative};
 use wardcast_report::svg::{Axis, Chart, EffectPlot, EffectRow as PlotRow};
 
 use super::pages::{Layout, Section, render};
-use super::state::Analysis;
-use super::words::{fmt_level, fmt_num, fmt_plain};
+use super::state::{Analysis, KEPT_SCENARIOS_MAX};
+use super::words::{fmt_level, fmt_num, fmt_plain, in_sentence};
 use super::{Ctx, blocking, read_body, see_other_to};
 use crate::error::{ApiError, Result, ServerError};
 
@@ -50,6 +59,10 @@ pub(crate) fn routes() -> Router<Ctx> {
         .route("/api/analyses/{id}/what-if/predict", post(predict_json))
         .route("/api/analyses/{id}/what-if/allocate", post(allocate_json))
         .route("/api/analyses/{id}/what-if/allocation", get(latest_allocation))
+        .route("/analyses/{id}/what-if/keep", post(keep_form))
+        .route("/analyses/{id}/what-if/forget", post(forget_form))
+        .route("/api/analyses/{id}/what-if/keep", post(keep_json))
+        .route("/api/analyses/{id}/what-if/kept", get(kept_json))
 }
 
 /// A number as shown (rounded) and as computed (full precision, for `data-value`).
@@ -245,6 +258,8 @@ pub struct OneAreaView {
     pub max_leverage: Figure,
     /// The interval chart.
     pub chart_svg: Option<String>,
+    /// Whether a prediction or an interval end is below zero on an untransformed response.
+    pub negative: bool,
 }
 
 /// The all-areas result.
@@ -262,6 +277,33 @@ pub struct AllAreasView {
     pub difference: EstimateView,
     /// The extrapolation warning, empty when every shifted point lies within the data.
     pub warning: String,
+    /// Whether an average or an interval end is below zero on an untransformed response.
+    pub negative: bool,
+}
+
+/// One kept scenario in the list on the page.
+#[derive(Debug, Clone)]
+pub struct KeptRow {
+    /// The position in the kept list (the `index` of the remove form).
+    pub index: usize,
+    /// What differs, in words (user data; escaped on output).
+    pub description: String,
+    /// What the prediction is for.
+    pub predicts: String,
+    /// The predicted value.
+    pub predicted: Figure,
+    /// Confidence interval of the mean, lower end.
+    pub mean_low: Figure,
+    /// Upper end.
+    pub mean_high: Figure,
+    /// Prediction interval of a single area, lower end (one-area scenarios).
+    pub new_low: Option<Figure>,
+    /// Upper end.
+    pub new_high: Option<Figure>,
+    /// The extrapolation flag in words, empty when within the data.
+    pub extrapolation: String,
+    /// Whether the scenario lies beyond the data.
+    pub beyond: bool,
 }
 
 /// The all-areas form's current values.
@@ -273,6 +315,8 @@ pub struct ShiftForm {
     pub add: bool,
     /// The amount in the field.
     pub amount: String,
+    /// The chosen column (empty when none).
+    pub column: String,
 }
 
 /// The allocation form's values.
@@ -423,6 +467,14 @@ pub struct WhatIfPage {
     pub form: AllocationForm,
     /// The latest allocation.
     pub allocation: Option<AllocationView>,
+    /// The scenarios kept for the brief.
+    pub kept: Vec<KeptRow>,
+    /// Whether a kept scenario has a value below zero on an untransformed response.
+    pub kept_negative: bool,
+    /// The sentence on predictions below zero.
+    pub negative_note: &'static str,
+    /// The most scenarios kept.
+    pub kept_max: usize,
 }
 
 /// The scenario settings read from the page's query.
@@ -529,6 +581,9 @@ fn one_area_view(analysis: &Analysis, one: &OneAreaDoc, level_pct: &str) -> OneA
             labels.join(", ")
         ));
     }
+    let mut values = prediction_values(&one.prediction);
+    values.extend(one.current.as_ref().map(prediction_values).unwrap_or_default());
+    let negative = linear_response(analysis) && any_negative(values);
     let current = one.current.as_ref().map(|c| PredictionView::new(format!("{area} as it is"), c));
     let scenario = PredictionView::new("With the values above", &one.prediction);
     OneAreaView {
@@ -541,7 +596,19 @@ fn one_area_view(analysis: &Analysis, one: &OneAreaDoc, level_pct: &str) -> OneA
         warning: warnings.join(" "),
         leverage: Figure::new(x.leverage),
         max_leverage: Figure::new(x.max_data_leverage),
+        negative,
     }
+}
+
+/// The prediction and the ends of both its intervals.
+fn prediction_values(p: &PredictionDoc) -> Vec<f64> {
+    vec![p.fit, p.mean_interval.low, p.mean_interval.high, p.new_area_interval.low, p.new_area_interval.high]
+}
+
+/// Whether the response is modelled on its own scale, where a value below zero is impossible for
+/// a rate; on a transformed scale (a log) negative values are ordinary.
+fn linear_response(analysis: &Analysis) -> bool {
+    analysis.spec().response_transform.is_none()
 }
 
 /// The two predictions with both intervals on one axis. A chart that cannot be drawn is left
@@ -592,31 +659,7 @@ fn scenario_chart(analysis: &Analysis, area: &str, one: &OneAreaDoc, level_pct: 
 
 fn all_areas_view(analysis: &Analysis, doc: &ScenarioDocument) -> Option<AllAreasView> {
     let all = doc.all_areas.as_ref()?;
-    let info = analysis.glossary().column(&all.shift.column);
-    let description = match all.shift.operation {
-        ShiftOperation::Add => {
-            let size = all.shift.amount.abs();
-            let unit = match info.unit.as_deref().map(str::trim) {
-                Some(u) if u.starts_with('%') && size == 1.0 => " percentage point".to_owned(),
-                Some(u) if u.starts_with('%') => " percentage points".to_owned(),
-                Some(u) if !u.is_empty() => format!(" {u}"),
-                _ => String::new(),
-            };
-            format!(
-                "Every {} with {} {} by {}{unit}",
-                singular(analysis.glossary().areas()),
-                info.label.to_lowercase(),
-                if all.shift.amount < 0.0 { "lower" } else { "higher" },
-                fmt_plain(size),
-            )
-        }
-        ShiftOperation::Multiply => format!(
-            "Every {} with {} multiplied by {}",
-            singular(analysis.glossary().areas()),
-            info.label.to_lowercase(),
-            fmt_plain(all.shift.amount)
-        ),
-    };
+    let description = shift_description(analysis, &all.shift);
     let mut warnings = Vec::new();
     if !all.beyond_data.is_empty() {
         warnings.push(format!(
@@ -644,7 +687,45 @@ fn all_areas_view(analysis: &Analysis, doc: &ScenarioDocument) -> Option<AllArea
         scenario: EstimateView::average(&all.scenario),
         difference: EstimateView::difference(&all.difference),
         warning: warnings.join(" "),
+        negative: linear_response(analysis)
+            && any_negative([
+                all.current.fit,
+                all.current.interval.low,
+                all.current.interval.high,
+                all.scenario.fit,
+                all.scenario.interval.low,
+                all.scenario.interval.high,
+            ]),
     })
+}
+
+/// A shift of every area, in words: "Every district with unemployment lower by 1 percentage point".
+fn shift_description(analysis: &Analysis, shift: &ShiftDoc) -> String {
+    let info = analysis.glossary().column(&shift.column);
+    match shift.operation {
+        ShiftOperation::Add => {
+            let size = shift.amount.abs();
+            let unit = match info.unit.as_deref().map(str::trim) {
+                Some(u) if u.starts_with('%') && size == 1.0 => " percentage point".to_owned(),
+                Some(u) if u.starts_with('%') => " percentage points".to_owned(),
+                Some(u) if !u.is_empty() => format!(" {u}"),
+                _ => String::new(),
+            };
+            format!(
+                "Every {} with {} {} by {}{unit}",
+                singular(analysis.glossary().areas()),
+                info.label.to_lowercase(),
+                if shift.amount < 0.0 { "lower" } else { "higher" },
+                fmt_plain(size),
+            )
+        }
+        ShiftOperation::Multiply => format!(
+            "Every {} with {} multiplied by {}",
+            singular(analysis.glossary().areas()),
+            info.label.to_lowercase(),
+            fmt_plain(shift.amount)
+        ),
+    }
 }
 
 fn singular(plural: &str) -> String {
@@ -832,7 +913,17 @@ pub async fn page(
     })
     .await?;
     let extras = analysis.extras()?;
-    Ok(render(&build_page(&analysis, ctx.shared(), area, &q, doc.as_ref(), extras.allocation.as_ref())))
+    let mut page = build_page(&analysis, ctx.shared(), area, &q, doc.as_ref(), extras.allocation.as_ref());
+    let kept: Vec<(usize, BriefScenario)> = extras
+        .scenarios
+        .iter()
+        .enumerate()
+        .flat_map(|(i, d)| brief_scenarios(&analysis, d).into_iter().map(move |v| (i, v)))
+        .collect();
+    page.kept_negative =
+        linear_response(&analysis) && any_negative(kept.iter().flat_map(|(_, v)| v.values()));
+    page.kept = kept.into_iter().map(|(index, v)| kept_row(index, v)).collect();
+    Ok(render(&page))
 }
 
 fn build_page(
@@ -887,6 +978,7 @@ fn build_page(
         columns: choices(&numeric, &shift_column, |c| glossary.column(c).label),
         add: q.shift_add,
         amount: q.shift_amount.clone(),
+        column: shift_column,
     };
     WhatIfPage {
         layout: Layout::analysis(
@@ -910,6 +1002,10 @@ fn build_page(
         shift,
         form: allocation_form(analysis, latest),
         allocation: latest.map(allocation_view),
+        kept: Vec::new(),
+        kept_negative: false,
+        negative_note: NEGATIVE_PREDICTION,
+        kept_max: KEPT_SCENARIOS_MAX,
     }
 }
 
@@ -1045,4 +1141,219 @@ pub async fn latest_allocation(
         ServerError::NotFound(format!("No allocation has been run on the analysis {id:?} yet."))
     })?;
     Ok(Json(doc))
+}
+
+/// A scenario document as the brief shows it: one row for the one-area scenario and one for the
+/// all-areas scenario, whichever the document holds, with the numbers copied unchanged.
+pub fn brief_scenarios(analysis: &Analysis, doc: &ScenarioDocument) -> Vec<BriefScenario> {
+    let glossary = analysis.glossary();
+    let areas = glossary.areas();
+    let mut out = Vec::new();
+    if let Some(one) = &doc.one_area {
+        let changed: Vec<String> = one
+            .inputs
+            .iter()
+            .filter(|i| i.changed || i.area_value.is_none())
+            .map(|i| {
+                let label = in_sentence(&glossary.column(&i.column).label);
+                match &i.area_value {
+                    Some(a) => format!("{label} {} instead of {}", value_text(&i.value), value_text(a)),
+                    None => format!("{label} {}", value_text(&i.value)),
+                }
+            })
+            .collect();
+        let description = match (&one.area, changed.is_empty()) {
+            (Some(area), true) => format!("{area} as it is"),
+            (Some(area), false) => format!("{area} with {}", changed.join(", ")),
+            (None, _) => format!("A {} with {}", singular(areas), changed.join(", ")),
+        };
+        let x = &one.extrapolation;
+        let mut words = Vec::new();
+        if x.beyond_data {
+            words.push(format!(
+                "leverage {} exceeds the largest among the {areas} in the model ({})",
+                fmt_num(x.leverage),
+                fmt_num(x.max_data_leverage)
+            ));
+        }
+        if !x.columns_outside_range.is_empty() {
+            let labels: Vec<String> =
+                x.columns_outside_range.iter().map(|c| glossary.column(c).label).collect();
+            words.push(format!("outside the observed range: {}", labels.join(", ")));
+        }
+        let p = &one.prediction;
+        out.push(BriefScenario {
+            description,
+            predicts: format!("a {} with these values", singular(areas)),
+            predicted: p.fit,
+            mean_low: p.mean_interval.low,
+            mean_high: p.mean_interval.high,
+            new_low: Some(p.new_area_interval.low),
+            new_high: Some(p.new_area_interval.high),
+            beyond_data: x.beyond_data,
+            extrapolation: words.join("; "),
+        });
+    }
+    if let Some(all) = &doc.all_areas {
+        let mut words = Vec::new();
+        if !all.beyond_data.is_empty() {
+            words.push(format!(
+                "beyond the data for {} of the {} shifted {areas} ({})",
+                all.beyond_data.len(),
+                all.areas,
+                all.beyond_data.join(", ")
+            ));
+        }
+        if !all.outside_range.is_empty() {
+            words.push(format!(
+                "outside the observed range for {} of them ({})",
+                all.outside_range.len(),
+                all.outside_range.join(", ")
+            ));
+        }
+        out.push(BriefScenario {
+            description: shift_description(analysis, &all.shift),
+            predicts: format!("the average over the {} {areas} in the model", all.areas),
+            predicted: all.scenario.fit,
+            mean_low: all.scenario.interval.low,
+            mean_high: all.scenario.interval.high,
+            new_low: None,
+            new_high: None,
+            beyond_data: !all.beyond_data.is_empty(),
+            extrapolation: words.join("; "),
+        });
+    }
+    out
+}
+
+fn kept_row(index: usize, v: BriefScenario) -> KeptRow {
+    KeptRow {
+        index,
+        predicted: Figure::new(v.predicted),
+        mean_low: Figure::new(v.mean_low),
+        mean_high: Figure::new(v.mean_high),
+        new_low: v.new_low.map(Figure::new),
+        new_high: v.new_high.map(Figure::new),
+        beyond: v.beyond_data,
+        extrapolation: v.extrapolation,
+        description: v.description,
+        predicts: v.predicts,
+    }
+}
+
+/// Computes a scenario on the blocking pool and keeps it on the analysis for the brief, dropping
+/// the oldest past [`KEPT_SCENARIOS_MAX`]. Returns the kept list.
+async fn keep(analysis: std::sync::Arc<Analysis>, request: ScenarioRequest) -> Result<Vec<ScenarioDocument>> {
+    let a = analysis.clone();
+    let doc = blocking(move || scenario::compute(&a, &request)).await?;
+    let mut kept = Vec::new();
+    analysis.update_extras(|e| {
+        e.scenarios.push(doc);
+        let excess = e.scenarios.len().saturating_sub(KEPT_SCENARIOS_MAX);
+        e.scenarios.drain(..excess);
+        kept = e.scenarios.clone();
+    })?;
+    Ok(kept)
+}
+
+/// Percent-encodes a query value (everything but unreserved characters).
+fn encode(text: &str) -> String {
+    let mut out = String::with_capacity(text.len());
+    for b in text.bytes() {
+        if b.is_ascii_alphanumeric() || matches!(b, b'-' | b'_' | b'.' | b'~') {
+            out.push(char::from(b));
+        } else {
+            out.push_str(&format!("%{b:02X}"));
+        }
+    }
+    out
+}
+
+/// `POST /analyses/{id}/what-if/keep`: form fields `part` (`one` or `all`) and the scenario's
+/// settings as in the page's query (`area` and `x.<column>` for one area; `shift_column`,
+/// `shift_op` and `shift_amount` for every area). The scenario is recomputed here and kept for
+/// the brief; the answer leads back to the page with the same settings.
+pub async fn keep_form(
+    State(ctx): State<Ctx>,
+    Path(id): Path<String>,
+    form: std::result::Result<Form<Vec<(String, String)>>, FormRejection>,
+) -> Result<Response> {
+    let analysis = ctx.analysis(&id)?;
+    let Form(pairs) =
+        form.map_err(|_| ServerError::BadRequest("The scenario form could not be read.".into()))?;
+    let part = pairs.iter().find(|(k, _)| k == "part").map(|(_, v)| v.clone()).unwrap_or_default();
+    let back: Vec<String> = pairs
+        .iter()
+        .filter(|(k, v)| k != "part" && !v.is_empty())
+        .map(|(k, v)| format!("{}={}", encode(k), encode(v)))
+        .collect();
+    let (q, shift) = parse_query(pairs)?;
+    let request =
+        match part.as_str() {
+            "one" => ScenarioRequest { area: q.area, values: q.values, shift: None },
+            "all" => ScenarioRequest {
+                area: None,
+                values: BTreeMap::new(),
+                shift: Some(shift.ok_or_else(|| {
+                    ServerError::BadRequest("Give the amount to shift every area by.".into())
+                })?),
+            },
+            other => {
+                return Err(ServerError::BadRequest(format!(
+                    "{other:?} is not a scenario to keep; choose one (one area) or all (every area)."
+                )));
+            }
+        };
+    keep(analysis.clone(), request).await?;
+    Ok(see_other_to(&format!("/analyses/{}/what-if?{}#kept", analysis.id(), back.join("&"))))
+}
+
+/// `POST /analyses/{id}/what-if/forget` with form field `index` (0 for the oldest kept
+/// scenario): removes that scenario from the brief and leads back to the page.
+pub async fn forget_form(
+    State(ctx): State<Ctx>,
+    Path(id): Path<String>,
+    form: std::result::Result<Form<Vec<(String, String)>>, FormRejection>,
+) -> Result<Response> {
+    let analysis = ctx.analysis(&id)?;
+    let Form(pairs) =
+        form.map_err(|_| ServerError::BadRequest("The remove form could not be read.".into()))?;
+    let text = pairs.iter().find(|(k, _)| k == "index").map(|(_, v)| v.trim().to_owned()).unwrap_or_default();
+    let index: usize = text.parse().map_err(|_| {
+        ServerError::BadRequest(format!("{text:?} does not name a kept scenario: give its number, from 0."))
+    })?;
+    let mut found = false;
+    analysis.update_extras(|e| {
+        if index < e.scenarios.len() {
+            e.scenarios.remove(index);
+            found = true;
+        }
+    })?;
+    if !found {
+        return Err(ServerError::BadRequest(format!("There is no kept scenario number {index}.")));
+    }
+    Ok(see_other_to(&format!("/analyses/{}/what-if#kept", analysis.id())))
+}
+
+/// `POST /api/analyses/{id}/what-if/keep`: computes the scenario of a [`ScenarioRequest`], keeps
+/// it for the brief and answers `201` with every kept scenario document, oldest first.
+pub async fn keep_json(
+    State(ctx): State<Ctx>,
+    Path(id): Path<String>,
+    body: Body,
+) -> std::result::Result<Response, ApiError> {
+    let analysis = ctx.analysis(&id)?;
+    let request: ScenarioRequest = json_body(body, "scenario request").await?;
+    let kept = keep(analysis, request).await?;
+    Ok((StatusCode::CREATED, Json(kept)).into_response())
+}
+
+/// `GET /api/analyses/{id}/what-if/kept`: the scenario documents kept for the brief, oldest
+/// first (an empty list before any).
+pub async fn kept_json(
+    State(ctx): State<Ctx>,
+    Path(id): Path<String>,
+) -> std::result::Result<Json<Vec<ScenarioDocument>>, ApiError> {
+    let analysis = ctx.analysis(&id)?;
+    Ok(Json(analysis.extras()?.scenarios))
 }

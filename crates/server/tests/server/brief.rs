@@ -656,3 +656,138 @@ fn the_demo_brief_from_the_command_line_equals_the_web_download() {
     });
     assert_eq!(cli, web, "the command line and the web app write the same tables");
 }
+
+fn post_json(path: &str, body: &serde_json::Value) -> Request<Body> {
+    Request::builder()
+        .method(Method::POST)
+        .uri(path)
+        .header(header::HOST, HOST)
+        .header(header::ORIGIN, ORIGIN)
+        .header(header::CONTENT_TYPE, "application/json")
+        .body(Body::from(body.to_string()))
+        .expect("request")
+}
+
+fn f(v: &serde_json::Value) -> f64 {
+    v.as_f64().unwrap_or_else(|| panic!("{v} is not a number"))
+}
+
+/// The numbers of a kept scenario document, in the columns of the brief's scenario table
+/// (prediction, mean interval, single-area interval; the all-areas rows have no single-area
+/// interval).
+fn scenario_numbers(doc: &serde_json::Value) -> Vec<f64> {
+    let mut out = Vec::new();
+    if !doc["one_area"].is_null() {
+        let p = &doc["one_area"]["prediction"];
+        out.extend(
+            [
+                &p["fit"],
+                &p["mean_interval"]["low"],
+                &p["mean_interval"]["high"],
+                &p["new_area_interval"]["low"],
+                &p["new_area_interval"]["high"],
+            ]
+            .map(f),
+        );
+    }
+    if !doc["all_areas"].is_null() {
+        let a = &doc["all_areas"]["scenario"];
+        out.extend([&a["fit"], &a["interval"]["low"], &a["interval"]["high"]].map(f));
+    }
+    out
+}
+
+#[tokio::test]
+async fn kept_scenarios_reach_the_brief_with_the_documents_numbers_and_leave_it_when_forgotten() {
+    let (_, app) = demo_app();
+    set_details(&app, DEMO_ID, QUESTION, AUTHOR).await;
+    let keep = |body: serde_json::Value| post_json(&format!("/api/analyses/{DEMO_ID}/what-if/keep"), &body);
+    let response =
+        send(&app, keep(serde_json::json!({"area": "LK-20", "values": {"unemployment_pct": 9.5}}))).await;
+    assert_eq!(response.status(), StatusCode::CREATED);
+    let response = send(
+        &app,
+        keep(serde_json::json!({"shift": {"column": "unemployment_pct", "operation": "add", "amount": -1}})),
+    )
+    .await;
+    assert_eq!(response.status(), StatusCode::CREATED);
+    let kept: Vec<serde_json::Value> = serde_json::from_str(&text(response).await).expect("JSON");
+    assert_eq!(kept.len(), 2);
+
+    // The brief JSON: a scenario table whose numbers equal the kept documents'.
+    let brief: serde_json::Value =
+        serde_json::from_str(&text(send(&app, get(&format!("/api/analyses/{DEMO_ID}/brief"))).await).await)
+            .expect("JSON");
+    let table = brief["tables"]
+        .as_array()
+        .expect("tables")
+        .iter()
+        .find(|t| t["name"] == "scenarios")
+        .expect("a scenario table");
+    let rows = table["rows"].as_array().expect("rows");
+    assert_eq!(rows.len(), 2);
+    assert!(rows[0][0].as_str().expect("text").starts_with("LK-20 with unemployment 9.5 instead of"));
+    for (row, doc) in rows.iter().zip(&kept) {
+        let numbers: Vec<f64> =
+            row.as_array().expect("cells").iter().filter_map(serde_json::Value::as_f64).collect();
+        assert_eq!(numbers, scenario_numbers(doc), "{row}");
+    }
+    let names: Vec<&str> =
+        brief["tables"].as_array().expect("tables").iter().filter_map(|t| t["name"].as_str()).collect();
+    let at = |n: &str| names.iter().position(|x| *x == n);
+    assert!(at("districts") < at("scenarios"), "the scenarios come after the districts: {names:?}");
+
+    // The Brief page shows the same numbers at full precision, after the districts.
+    let page = text(send(&app, get(&format!("/analyses/{DEMO_ID}/brief"))).await).await;
+    let shown = table_values(&page, "Kept what-if scenarios");
+    let expected: Vec<f64> = kept.iter().flat_map(scenario_numbers).collect();
+    assert_eq!(shown, expected);
+    assert!(page.contains("are predicted to have the values below"), "non-causal wording");
+    assert!(!page.contains("No scenario or allocation was run"));
+
+    // The HTML download prints them as the brief formats them; the CSV carries the rows.
+    let html =
+        String::from_utf8(bytes(send(&app, get(&format!("/analyses/{DEMO_ID}/brief.html"))).await).await)
+            .expect("UTF-8");
+    assert!(html.contains("What-if scenarios"));
+    for v in &expected {
+        let printed = wardcast_report::brief::text::fmt_sig(*v, 4);
+        assert!(html.contains(&format!(">{printed}</td>")), "the download prints {printed}");
+    }
+    let csv = text(send(&app, get(&format!("/analyses/{DEMO_ID}/tables.csv"))).await).await;
+    assert_eq!(csv.lines().filter(|l| l.starts_with("scenarios,")).count(), 2, "{csv}");
+
+    // Forgotten, the first leaves the brief.
+    let response = send(&app, post_form(&format!("/analyses/{DEMO_ID}/what-if/forget"), "index=0")).await;
+    assert_eq!(response.status(), StatusCode::SEE_OTHER);
+    let brief: serde_json::Value =
+        serde_json::from_str(&text(send(&app, get(&format!("/api/analyses/{DEMO_ID}/brief"))).await).await)
+            .expect("JSON");
+    let table =
+        brief["tables"].as_array().expect("tables").iter().find(|t| t["name"] == "scenarios").expect("table");
+    assert_eq!(table["rows"].as_array().expect("rows").len(), 1);
+    let response = send(&app, post_form(&format!("/analyses/{DEMO_ID}/what-if/forget"), "index=0")).await;
+    assert_eq!(response.status(), StatusCode::SEE_OTHER);
+    let page = text(send(&app, get(&format!("/analyses/{DEMO_ID}/brief"))).await).await;
+    assert!(page.contains("No scenario or allocation was run"), "back to the one-line note");
+    assert!(!page.contains("Kept what-if scenarios"));
+}
+
+#[tokio::test]
+async fn kept_scenario_text_is_escaped_in_the_brief() {
+    let state = AppState::new();
+    state.insert(crate::sample_analysis("nasty", NASTY, NASTY, "LK-12")).expect("insert");
+    let app = router(state, SecurityConfig::local(PORT));
+    set_details(&app, "nasty", QUESTION, AUTHOR).await;
+    let body = serde_json::json!({"area": "LK-05", "values": {NASTY: 1.5}});
+    let response = send(&app, post_json("/api/analyses/nasty/what-if/keep", &body)).await;
+    assert_eq!(response.status(), StatusCode::CREATED);
+    let page = text(send(&app, get("/analyses/nasty/brief")).await).await;
+    assert!(page.contains("Kept what-if scenarios"));
+    let html =
+        String::from_utf8(bytes(send(&app, get("/analyses/nasty/brief.html")).await).await).expect("UTF-8");
+    for (what, doc) in [("page", &page), ("download", &html)] {
+        assert!(doc.contains("LK-05 with "), "{what}: the scenario row");
+        assert!(!doc.contains(NASTY), "{what}: never raw");
+    }
+}

@@ -651,3 +651,251 @@ async fn the_demo_allocation_compares_this_years_budget() {
         }
     }
 }
+
+/// The sentence shown wherever a predicted rate or an interval end is below zero.
+const NEGATIVE: &str = wardcast_report::brief::text::NEGATIVE_PREDICTION;
+
+/// The demo workspace served locally.
+fn demo_app() -> Router {
+    router(wardcast::web::demo::demo_state().expect("demo"), SecurityConfig::local(PORT))
+}
+
+/// Keeps a scenario through the JSON route and returns the kept list.
+async fn keep_json(app: &Router, id: &str, request: Value) -> Vec<Value> {
+    let kept =
+        json_of(app, post_json(&format!("/api/analyses/{id}/what-if/keep"), &request), StatusCode::CREATED)
+            .await;
+    kept.as_array().expect("a list").clone()
+}
+
+async fn kept_of(app: &Router, id: &str) -> Vec<Value> {
+    let kept = json_of(app, get(&format!("/api/analyses/{id}/what-if/kept")), StatusCode::OK).await;
+    kept.as_array().expect("a list").clone()
+}
+
+#[tokio::test]
+async fn kept_scenarios_are_recomputed_listed_and_forgotten() {
+    let app = local_app();
+    assert!(kept_of(&app, "demo").await.is_empty(), "nothing kept at first");
+    // The page form: one area with a changed value; the answer leads back with the settings.
+    let response = send(
+        &app,
+        post_form("/analyses/demo/what-if/keep", "part=one&area=LK-20&x.unemployment_pct=9.5&fit=1000"),
+    )
+    .await;
+    assert_eq!(response.status(), StatusCode::SEE_OTHER);
+    assert_eq!(
+        header_of(&response, "location"),
+        "/analyses/demo/what-if?area=LK-20&x.unemployment_pct=9.5&fit=1000#kept"
+    );
+    // Every area shifted.
+    let response = send(
+        &app,
+        post_form(
+            "/analyses/demo/what-if/keep",
+            "part=all&shift_column=unemployment_pct&shift_op=add&shift_amount=-1",
+        ),
+    )
+    .await;
+    assert_eq!(response.status(), StatusCode::SEE_OTHER);
+    let kept = kept_of(&app, "demo").await;
+    assert_eq!(kept.len(), 2);
+    // The kept documents equal what the predict route computes: posted numbers are ignored.
+    let one = json_of(
+        &app,
+        post_json(
+            "/api/analyses/demo/what-if/predict",
+            &json!({"area": "LK-20", "values": {"unemployment_pct": 9.5}}),
+        ),
+        StatusCode::OK,
+    )
+    .await;
+    assert_eq!(kept[0]["one_area"], one["one_area"]);
+    assert!(kept[0]["all_areas"].is_null());
+    let all = json_of(
+        &app,
+        post_json(
+            "/api/analyses/demo/what-if/predict",
+            &json!({"shift": {"column": "unemployment_pct", "operation": "add", "amount": -1.0}}),
+        ),
+        StatusCode::OK,
+    )
+    .await;
+    assert_eq!(kept[1]["all_areas"], all["all_areas"]);
+    // The page lists both with their numbers and a remove form each.
+    let html = text(send(&app, get("/analyses/demo/what-if")).await).await;
+    let p = &kept[0]["one_area"]["prediction"];
+    for v in [
+        &p["fit"],
+        &p["mean_interval"]["low"],
+        &p["new_area_interval"]["high"],
+        &kept[1]["all_areas"]["scenario"]["fit"],
+    ] {
+        assert!(html.contains(&format!("<data value=\"{:?}\">", num(v))), "the kept list shows {v}");
+    }
+    assert!(html.contains("LK-20 with unemployment 9.5 instead of"), "the one-area description");
+    assert_eq!(html.matches("/what-if/forget\"").count(), 2, "a remove form per kept scenario");
+    // Forget the first: the shift is left.
+    let response = send(&app, post_form("/analyses/demo/what-if/forget", "index=0")).await;
+    assert_eq!(response.status(), StatusCode::SEE_OTHER);
+    assert_eq!(header_of(&response, "location"), "/analyses/demo/what-if#kept");
+    let kept = kept_of(&app, "demo").await;
+    assert_eq!(kept.len(), 1);
+    assert_eq!(kept[0]["all_areas"], all["all_areas"]);
+}
+
+#[tokio::test]
+async fn at_most_twenty_scenarios_are_kept_and_the_oldest_go_first() {
+    let app = local_app();
+    let mut kept = Vec::new();
+    for i in 0..23 {
+        kept = keep_json(
+            &app,
+            "demo",
+            json!({"area": "LK-05", "values": {"unemployment_pct": 3.0 + f64::from(i)}}),
+        )
+        .await;
+    }
+    assert_eq!(kept.len(), 20);
+    let first = &kept[0]["one_area"]["inputs"][0];
+    assert_eq!(first["column"], "unemployment_pct");
+    assert_eq!(num(&first["value"]), 6.0, "the three oldest were dropped");
+    assert_eq!(num(&kept[19]["one_area"]["inputs"][0]["value"]), 25.0);
+    assert_eq!(kept_of(&app, "demo").await, kept);
+}
+
+#[tokio::test]
+async fn bad_keep_and_forget_requests_are_answered() {
+    let app = local_app();
+    keep_json(&app, "demo", json!({"area": "LK-05"})).await;
+    // (form route, body, status, words in the answer)
+    let cases = [
+        ("/analyses/demo/what-if/keep", "part=one&area=LK-99", StatusCode::BAD_REQUEST, "no area"),
+        ("/analyses/demo/what-if/keep", "part=one", StatusCode::BAD_REQUEST, "nothing to predict"),
+        (
+            "/analyses/demo/what-if/keep",
+            "part=all&shift_column=unemployment_pct",
+            StatusCode::BAD_REQUEST,
+            "amount",
+        ),
+        (
+            "/analyses/demo/what-if/keep",
+            "part=both&area=LK-05",
+            StatusCode::BAD_REQUEST,
+            "not a scenario to keep",
+        ),
+        ("/analyses/demo/what-if/keep", "area=LK-05", StatusCode::BAD_REQUEST, "not a scenario to keep"),
+        (
+            "/analyses/demo/what-if/keep",
+            "part=one&area=LK-05&x.unemployment_pct=lots",
+            StatusCode::BAD_REQUEST,
+            "not one",
+        ),
+        ("/analyses/demo/what-if/forget", "index=1", StatusCode::BAD_REQUEST, "no kept scenario number 1"),
+        (
+            "/analyses/demo/what-if/forget",
+            "index=-1",
+            StatusCode::BAD_REQUEST,
+            "does not name a kept scenario",
+        ),
+        ("/analyses/demo/what-if/forget", "", StatusCode::BAD_REQUEST, "does not name a kept scenario"),
+        ("/analyses/nowhere/what-if/forget", "index=0", StatusCode::NOT_FOUND, "nowhere"),
+    ];
+    for (path, body, status, words) in cases {
+        let response = send(&app, post_form(path, body)).await;
+        assert_eq!(response.status(), status, "{path} {body}");
+        let page = text(response).await;
+        assert!(page.contains(words), "{path} {body}: {page}");
+    }
+    // JSON keep: unknown area, malformed JSON, unknown field.
+    for body in [r#"{"area": "LK-99"}"#, "{", r#"{"area": "LK-05", "fit": 3}"#, "{}"] {
+        let response = send(&app, post("/api/analyses/demo/what-if/keep", "application/json", body)).await;
+        assert_eq!(response.status(), StatusCode::BAD_REQUEST, "{body}");
+        let doc: Value = serde_json::from_str(&text(response).await).expect("JSON error");
+        assert_eq!(doc["status"], 400, "{body}");
+    }
+    // GET on the POST routes, POST on the GET route.
+    for path in
+        ["/analyses/demo/what-if/keep", "/analyses/demo/what-if/forget", "/api/analyses/demo/what-if/keep"]
+    {
+        assert_eq!(send(&app, get(path)).await.status(), StatusCode::METHOD_NOT_ALLOWED, "{path}");
+    }
+    let response = send(&app, post_json("/api/analyses/demo/what-if/kept", &json!({}))).await;
+    assert_eq!(response.status(), StatusCode::METHOD_NOT_ALLOWED);
+    // A cross-site form post is refused before anything is kept.
+    let response = send(
+        &app,
+        Request::post("/analyses/demo/what-if/keep")
+            .header(header::HOST, HOST)
+            .header(header::ORIGIN, "http://elsewhere.example")
+            .header(header::CONTENT_TYPE, "application/x-www-form-urlencoded")
+            .body(Body::from("part=one&area=LK-05"))
+            .expect("request"),
+    )
+    .await;
+    assert_eq!(response.status(), StatusCode::FORBIDDEN);
+    assert_eq!(kept_of(&app, "demo").await.len(), 1, "nothing was kept or forgotten by a bad request");
+}
+
+#[tokio::test]
+async fn kept_scenarios_escape_user_text() {
+    let state = AppState::new();
+    state.insert(sample_analysis("nasty", NASTY, NASTY, NASTY)).expect("insert");
+    let app = router(state, SecurityConfig::local(PORT));
+    let body = format!("part=one&area=LK-05&x.{}=1.5", urlencode(NASTY));
+    let response = send(&app, post_form("/analyses/nasty/what-if/keep", &body)).await;
+    assert_eq!(response.status(), StatusCode::SEE_OTHER);
+    let location = header_of(&response, "location");
+    assert!(!location.contains(NASTY), "the redirect is percent-encoded: {location}");
+    let html = text(send(&app, get(&location)).await).await;
+    assert!(
+        html.contains(&format!("LK-05 with {NASTY_ESCAPED} 1.5 instead of")),
+        "the description is escaped"
+    );
+    assert!(!html.contains(NASTY));
+    let kept = kept_of(&app, "nasty").await;
+    assert_eq!(kept[0]["one_area"]["inputs"][3]["column"], NASTY, "the JSON keeps the text as it is");
+}
+
+#[tokio::test]
+async fn negative_predictions_are_named_in_one_sentence_and_left_unaltered() {
+    let app = demo_app();
+    // LK-20's own prediction and its scenario reach below zero.
+    let html =
+        text(send(&app, get("/analyses/larkmoor/what-if?area=LK-20&x.unemployment_pct=9.5")).await).await;
+    assert_eq!(html.matches(NEGATIVE).count(), 1, "one sentence beside the one-area result");
+    let doc = json_of(
+        &app,
+        post_json(
+            "/api/analyses/larkmoor/what-if/predict",
+            &json!({"area": "LK-20", "values": {"unemployment_pct": 9.5}}),
+        ),
+        StatusCode::OK,
+    )
+    .await;
+    let low = num(&doc["one_area"]["prediction"]["new_area_interval"]["low"]);
+    assert!(low < 0.0, "the demo scenario goes below zero");
+    assert!(html.contains(&format!("<data value=\"{low:?}\">")), "the negative end is shown unaltered");
+    // LK-02 and the shifted average stay above zero: no sentence.
+    let html = text(
+        send(
+            &app,
+            get("/analyses/larkmoor/what-if?area=LK-02&shift_column=unemployment_pct&shift_op=add&shift_amount=-1"),
+        )
+        .await,
+    )
+    .await;
+    assert!(html.contains("id=\"all-result\""));
+    assert!(!html.contains(NEGATIVE), "nothing is below zero for LK-02");
+    // Kept, the negative scenario carries the sentence into the kept list.
+    keep_json(&app, "larkmoor", json!({"area": "LK-20"})).await;
+    let html = text(send(&app, get("/analyses/larkmoor/what-if?area=LK-02")).await).await;
+    assert_eq!(html.matches(NEGATIVE).count(), 1, "one sentence under the kept list");
+    // The Areas page: the demo's leave-one-out intervals reach below zero.
+    let areas = json_of(&app, get("/api/analyses/larkmoor/areas"), StatusCode::OK).await;
+    let negative =
+        areas["rows"].as_array().expect("rows").iter().any(|r| r["low"].as_f64().is_some_and(|x| x < 0.0));
+    let html = text(send(&app, get("/analyses/larkmoor/areas")).await).await;
+    assert_eq!(html.contains(NEGATIVE), negative);
+    assert!(negative, "the demo has an interval end below zero");
+}

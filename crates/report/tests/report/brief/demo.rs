@@ -162,6 +162,7 @@ pub fn demo_input() -> BriefInput {
         checks: Some(checks),
         model_choice: Some(demo_model_choice(&table, &spec)),
         allocation: None,
+        scenarios: Vec::new(),
         columns: demo_columns(),
         join: None,
         checksums: vec![DatasetChecksum { version_id: "larkmoor-districts@1".into(), checksum: demo_checksum() }],
