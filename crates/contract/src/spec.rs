@@ -181,6 +181,23 @@ impl ModelSpec {
         }
     }
 
+    /// The same spec with `columns` as its predictors, in that order; a column the spec already
+    /// uses keeps its transform and reference level, a new one has neither.
+    pub fn with_predictor_columns(&self, columns: &[String]) -> Self {
+        let mut spec = self.clone();
+        spec.predictors = columns
+            .iter()
+            .map(|c| {
+                self.predictors.iter().find(|p| &p.column == c).cloned().unwrap_or(PredictorSpec {
+                    column: c.clone(),
+                    transform: None,
+                    reference_level: None,
+                })
+            })
+            .collect();
+        spec
+    }
+
     /// Checks the fields this crate can check (schema, level, transforms, exclusion reasons).
     pub fn validate(&self) -> Result<()> {
         if self.schema_version != SCHEMA_VERSION {

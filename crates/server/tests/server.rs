@@ -24,7 +24,7 @@ use std::sync::Arc;
 
 use axum::Router;
 use axum::body::Body;
-use axum::http::{Request, Response, header};
+use axum::http::{Request, Response, StatusCode, header};
 use http_body_util::BodyExt;
 use tower::ServiceExt;
 use wardcast::security::{SecurityConfig, Token};
@@ -37,6 +37,8 @@ use wardcast_engine::{Column, Table};
 pub const PORT: u16 = 7878;
 /// The Host header of a well-behaved local request.
 pub const HOST: &str = "127.0.0.1:7878";
+/// The Origin header of a well-behaved local request.
+pub const ORIGIN: &str = "http://127.0.0.1:7878";
 /// The LAN address used in sharing tests (a documentation-range address, RFC 5737).
 pub const LAN: IpAddr = IpAddr::V4(Ipv4Addr::new(192, 0, 2, 10));
 /// The name used to test escaping everywhere user text appears.
@@ -146,6 +148,40 @@ pub fn get(path: &str) -> Request<Body> {
     Request::get(path).header(header::HOST, HOST).body(Body::empty()).expect("request")
 }
 
+/// A same-origin POST of `body`, sent as `content_type`, with the local Host header.
+pub fn post(path: &str, content_type: &str, body: impl Into<Body>) -> Request<Body> {
+    Request::post(path)
+        .header(header::HOST, HOST)
+        .header(header::ORIGIN, ORIGIN)
+        .header(header::CONTENT_TYPE, content_type)
+        .body(body.into())
+        .expect("request")
+}
+
+/// Percent-encodes one component of a form body (letters, digits, `-`, `.` and `_` stay; a
+/// space becomes `+`).
+pub fn encode(s: &str) -> String {
+    s.bytes()
+        .map(|b| match b {
+            b'A'..=b'Z' | b'a'..=b'z' | b'0'..=b'9' | b'-' | b'.' | b'_' => (b as char).to_string(),
+            b' ' => "+".to_owned(),
+            _ => format!("%{b:02X}"),
+        })
+        .collect()
+}
+
+/// A same-origin POST of a JSON document.
+pub fn post_json(path: &str, body: &serde_json::Value) -> Request<Body> {
+    post(path, "application/json", body.to_string())
+}
+
+/// Sends a request and asserts its status (`what` names the case), returning the response.
+pub async fn check(app: &Router, request: Request<Body>, status: StatusCode, what: &str) -> Response<Body> {
+    let response = send(app, request).await;
+    assert_eq!(response.status(), status, "{what}");
+    response
+}
+
 /// Sends one request through the router.
 pub async fn send(app: &Router, request: Request<Body>) -> Response<Body> {
     app.clone().oneshot(request).await.expect("the router never fails")
@@ -155,6 +191,25 @@ pub async fn send(app: &Router, request: Request<Body>) -> Response<Body> {
 pub async fn text(response: Response<Body>) -> String {
     let bytes = response.into_body().collect().await.expect("body").to_bytes();
     String::from_utf8(bytes.to_vec()).expect("utf-8 body")
+}
+
+/// Every `<data value="…">` on a page, in order (empty values left out).
+pub fn data_numbers(html: &str) -> Vec<f64> {
+    html.split("<data value=\"")
+        .skip(1)
+        .filter_map(|rest| rest.split('"').next())
+        .filter(|v| !v.is_empty())
+        .map(|v| v.parse::<f64>().expect("a number in data value"))
+        .collect()
+}
+
+/// Escapes text the way the templates do, for finding text in a page.
+pub fn escape_html(text: &str) -> String {
+    text.replace('&', "&#38;")
+        .replace('<', "&#60;")
+        .replace('>', "&#62;")
+        .replace('"', "&#34;")
+        .replace('\'', "&#39;")
 }
 
 /// A header's value as text, or "" when absent.

@@ -1,48 +1,13 @@
 // Browser test of the Brief page in Debian's headless Chromium: the analyst enters the
 // decision question and author, sees them in the rendered brief, checks its numbers against
 // the engine's JSON, and downloads the PDF; no console errors, CSP violations or HTTP errors.
-import { test, before, after } from 'node:test';
+import { test } from 'node:test';
 import assert from 'node:assert/strict';
 import fs from 'node:fs/promises';
 import path from 'node:path';
-import { chromium } from 'playwright-core';
+import { withChromium, watchedPage, base, shots, close } from '../lib/harness.mjs';
 
-const base = process.env.WARDCAST_URL;
-const shots = process.env.WARDCAST_ARTIFACTS;
-let browser;
-
-before(async () => {
-  assert.ok(base, 'WARDCAST_URL names the running server');
-  assert.ok(shots, 'WARDCAST_ARTIFACTS names the artifacts folder');
-  await fs.mkdir(shots, { recursive: true });
-  browser = await chromium.launch({
-    executablePath: '/usr/bin/chromium',
-    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-      '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-  });
-});
-
-after(async () => {
-  await browser?.close();
-});
-
-/** A fresh page that records console errors, page errors, CSP violations and HTTP errors. */
-async function watchedPage() {
-  const context = await browser.newContext({ viewport: { width: 1280, height: 900 }, acceptDownloads: true });
-  const page = await context.newPage();
-  const problems = [];
-  page.on('console', (m) => { if (m.type() === 'error') problems.push(`console: ${m.text()}`); });
-  page.on('pageerror', (e) => problems.push(`page error: ${e.message}`));
-  page.on('response', (r) => { if (r.status() >= 400) problems.push(`HTTP ${r.status()} for ${r.url()}`); });
-  await page.addInitScript(() => {
-    document.addEventListener('securitypolicyviolation', (e) => {
-      console.error(`CSP violation: ${e.violatedDirective} ${e.blockedURI}`);
-    });
-  });
-  return { context, page, problems };
-}
-
-const close = (a, b) => Math.abs(a - b) <= 1e-12 * Math.max(1, Math.abs(b));
+withChromium();
 
 test('the analyst sets the question and author, sees them in the brief, and downloads the PDF', async () => {
   const { context, page, problems } = await watchedPage();

@@ -2,44 +2,11 @@
 // the demo, watch its job page (progress bar and state), open the result and check that every
 // criterion shown equals the job's JSON result; no console errors, CSP violations or HTTP errors.
 // Screenshots go to WARDCAST_ARTIFACTS as contenders-*.png.
-import { test, before, after } from 'node:test';
+import { test } from 'node:test';
 import assert from 'node:assert/strict';
-import path from 'node:path';
-import { chromium } from 'playwright-core';
+import { withChromium, watchedPage, base, close, getJson, shot } from '../lib/harness.mjs';
 
-const base = process.env.WARDCAST_URL;
-const shots = process.env.WARDCAST_ARTIFACTS;
-let browser;
-
-before(async () => {
-  assert.ok(base, 'WARDCAST_URL names the running server');
-  browser = await chromium.launch({
-    executablePath: '/usr/bin/chromium',
-    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-      '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-  });
-});
-
-after(async () => {
-  await browser?.close();
-});
-
-/** A fresh page that records console errors, page errors, HTTP errors and CSP violations. */
-async function watchedPage() {
-  const page = await browser.newPage({ viewport: { width: 1280, height: 900 } });
-  const problems = [];
-  page.on('console', (m) => { if (m.type() === 'error') problems.push(`console: ${m.text()}`); });
-  page.on('pageerror', (e) => problems.push(`page error: ${e.message}`));
-  page.on('response', (r) => { if (r.status() >= 400) problems.push(`HTTP ${r.status()} for ${r.url()}`); });
-  await page.addInitScript(() => {
-    document.addEventListener('securitypolicyviolation', (e) => {
-      console.error(`CSP violation: ${e.violatedDirective} ${e.blockedURI}`);
-    });
-  });
-  return { page, problems };
-}
-
-const close = (a, b) => Math.abs(a - b) <= 1e-12 * Math.max(1, Math.abs(b));
+withChromium();
 
 /** A JSON criterion as a number (null stays null; "Infinity" strings become numbers). */
 const num = (v) => (v === null || v === undefined ? null : Number(v));
@@ -62,18 +29,16 @@ test('the subset search runs as a job and its result page shows the engine numbe
   assert.equal(await page.locator('progress#job-progress').count(), 1, 'the job page has a progress bar');
   const state = await page.locator('.job-state').innerText();
   assert.ok(/Working|Finished/.test(state), `the state is in words: ${state}`);
-  await page.screenshot({ path: path.join(shots, 'contenders-job.png'), fullPage: true });
+  await shot(page, 'contenders-job.png');
 
   // The page refreshes itself while the job runs; the result link appears when it is done.
   const link = page.locator('#job-result');
   await link.waitFor({ timeout: 60000 });
-  await page.screenshot({ path: path.join(shots, 'contenders-job-done.png'), fullPage: true });
+  await shot(page, 'contenders-job-done.png');
   await Promise.all([page.waitForURL(`${base}/analyses/larkmoor/contenders?job=${job}`), link.click()]);
-  await page.screenshot({ path: path.join(shots, 'contenders-result.png'), fullPage: true });
+  await shot(page, 'contenders-result.png');
 
-  const response = await page.request.get(`${base}/api/jobs/${job}`);
-  assert.equal(response.status(), 200);
-  const doc = await response.json();
+  const doc = await getJson(page, `${base}/api/jobs/${job}`);
   assert.equal(doc.state, 'done');
   const { selection, own_model: own } = doc.result;
   assert.equal(selection.candidates.length, 7);
@@ -136,7 +101,7 @@ test('the subset search runs as a job and its result page shows the engine numbe
     const api = await (await page.request.get(
       `${base}/api/analyses/larkmoor/contenders/compare?job=${job}&a=${encodeURIComponent(small)}&b=${encodeURIComponent(large)}`)).json();
     assert.ok(close(shownF, api.test.f), `F on the page equals the API: ${shownF} vs ${api.test.f}`);
-    await page.screenshot({ path: path.join(shots, 'contenders-compare.png'), fullPage: true });
+    await shot(page, 'contenders-compare.png');
   }
   assert.deepEqual(problems, [], 'no console errors, CSP violations or HTTP errors');
   await page.close();

@@ -2,44 +2,11 @@
 // the set-up form, check the new analysis' numbers against its fit JSON, leave the arena
 // district out with a reason, and check one row fewer is used. No console errors, no CSP
 // violations, no failed requests. Screenshots go to WARDCAST_ARTIFACTS as setup-*.png.
-import { test, before, after } from 'node:test';
+import { test } from 'node:test';
 import assert from 'node:assert/strict';
-import path from 'node:path';
-import { chromium } from 'playwright-core';
+import { withChromium, watchedPage, base, getJson, shot, assertEffectsMatchFit } from '../lib/harness.mjs';
 
-const base = process.env.WARDCAST_URL;
-const shots = process.env.WARDCAST_ARTIFACTS;
-let browser;
-
-before(async () => {
-  assert.ok(base, 'WARDCAST_URL names the running server');
-  browser = await chromium.launch({
-    executablePath: '/usr/bin/chromium',
-    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-      '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-  });
-});
-
-after(async () => {
-  await browser?.close();
-});
-
-/** A fresh page that records console errors, page errors, CSP violations and failed requests. */
-async function watchedPage() {
-  const page = await browser.newPage({ viewport: { width: 1280, height: 900 } });
-  const problems = [];
-  page.on('console', (m) => { if (m.type() === 'error') problems.push(`console: ${m.text()}`); });
-  page.on('pageerror', (e) => problems.push(`page error: ${e.message}`));
-  page.on('response', (r) => { if (r.status() >= 400) problems.push(`HTTP ${r.status()} for ${r.url()}`); });
-  await page.addInitScript(() => {
-    document.addEventListener('securitypolicyviolation', (e) => {
-      console.error(`CSP violation: ${e.violatedDirective} ${e.blockedURI}`);
-    });
-  });
-  return { page, problems };
-}
-
-const close = (a, b) => Math.abs(a - b) <= 1e-12 * Math.max(1, Math.abs(b));
+withChromium();
 
 /** The id of the analysis whose page is open. */
 function analysisId(url) {
@@ -48,11 +15,8 @@ function analysisId(url) {
   return match[1];
 }
 
-async function fitOf(page, id) {
-  const response = await page.request.get(`${base}/api/analyses/${id}/fit`);
-  assert.equal(response.status(), 200);
-  return response.json();
-}
+/** The fit document of an analysis. */
+const fitOf = (page, id) => getJson(page, `${base}/api/analyses/${id}/fit`);
 
 test('changing the model on the Data page gives a new analysis whose numbers equal its fit JSON', async () => {
   const { page, problems } = await watchedPage();
@@ -61,7 +25,7 @@ test('changing the model on the Data page gives a new analysis whose numbers equ
   for (const phrase of ['Larkmoor Office of Data', 'LK-65', 'LK-7A', 'Fit a changed model']) {
     assert.ok(text.includes(phrase), `the Data page shows ${phrase}`);
   }
-  await page.screenshot({ path: path.join(shots, 'setup-data.png'), fullPage: true });
+  await shot(page, 'setup-data.png');
   const before = await fitOf(page, 'larkmoor');
 
   // Log the vacancy share and fit the changed model.
@@ -72,24 +36,14 @@ test('changing the model on the Data page gives a new analysis whose numbers equ
     page.click('button:has-text("Fit the changed model")'),
   ]);
   const id = analysisId(page.url());
-  await page.screenshot({ path: path.join(shots, 'setup-refit-effects.png'), fullPage: true });
+  await shot(page, 'setup-refit-effects.png');
 
   const fit = await fitOf(page, id);
   assert.ok(fit.spec.predictors.some((p) => p.column === 'vacancy_pct' && p.transform?.kind === 'log'),
     'the new spec logs the vacancy share');
   const slopes = fit.coefficients.filter((c) => c.term !== '(intercept)');
   assert.ok(slopes.some((c) => c.term === 'log(vacancy_pct)'), 'a logged term');
-  const shown = await page.$$eval('.effect-figures', (rows) => rows.map((r) => {
-    const values = [...r.querySelectorAll('data')].map((d) => Number(d.getAttribute('value')));
-    return { estimate: values[0], low: values[1], high: values[2], se: values[3] };
-  }));
-  assert.equal(shown.length, slopes.length, 'one effect per non-intercept coefficient');
-  for (const c of slopes) {
-    const row = shown.find((s) => close(s.estimate, c.estimate));
-    assert.ok(row, `the page shows the estimate of ${c.term}`);
-    assert.ok(close(row.low, c.interval.low) && close(row.high, c.interval.high), `interval of ${c.term}`);
-    assert.ok(close(row.se, c.std_error), `standard error of ${c.term}`);
-  }
+  await assertEffectsMatchFit(page, fit);
 
   // The old analysis did not change.
   assert.deepEqual(await fitOf(page, 'larkmoor'), before, 'the demo analysis is unchanged');
@@ -123,7 +77,7 @@ test('leaving the arena district out with a reason drops one row', async () => {
   assert.equal(used, fit.rows_used, 'the Data page shows the rows used');
   const text = await page.locator('main').innerText();
   assert.ok(text.includes(reason), 'the Data page lists the reason');
-  await page.screenshot({ path: path.join(shots, 'setup-excluded-data.png'), fullPage: true });
+  await shot(page, 'setup-excluded-data.png');
   assert.deepEqual(problems, [], 'no console errors, CSP violations or failed requests');
   await page.close();
 });

@@ -1,61 +1,20 @@
 // Browser tests of the Soundness page in headless Chromium: the numbers shown equal the checks
 // document of the JSON API, the refit comparison for LK-47 equals its JSON twin, the exclusion
 // form leads to a new analysis, and no page raises console errors or CSP violations.
-import { test, before, after } from 'node:test';
+import { test } from 'node:test';
 import assert from 'node:assert/strict';
-import path from 'node:path';
-import { chromium } from 'playwright-core';
+import { withChromium, watchedPage, base, close, getJson, dataValues, shot } from '../lib/harness.mjs';
 
-const base = process.env.WARDCAST_URL;
-const shots = process.env.WARDCAST_ARTIFACTS;
-let browser;
-
-before(async () => {
-  assert.ok(base, 'WARDCAST_URL names the running server');
-  assert.ok(shots, 'WARDCAST_ARTIFACTS names the screenshot folder');
-  browser = await chromium.launch({
-    executablePath: '/usr/bin/chromium',
-    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-      '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-  });
-});
-
-after(async () => {
-  await browser?.close();
-});
-
-/** A fresh page that records console errors, page errors, CSP violations and HTTP errors. */
-async function watchedPage() {
-  const page = await browser.newPage({ viewport: { width: 1280, height: 900 } });
-  const problems = [];
-  page.on('console', (m) => { if (m.type() === 'error') problems.push(`console: ${m.text()}`); });
-  page.on('pageerror', (e) => problems.push(`page error: ${e.message}`));
-  page.on('response', (r) => { if (r.status() >= 400) problems.push(`HTTP ${r.status()} for ${r.url()}`); });
-  await page.addInitScript(() => {
-    document.addEventListener('securitypolicyviolation', (e) => {
-      console.error(`CSP violation: ${e.violatedDirective} ${e.blockedURI}`);
-    });
-  });
-  return { page, problems };
-}
-
-const close = (a, b) => Math.abs(a - b) <= 1e-12 * Math.max(1, Math.abs(b));
-
-/** The numbers in the `<data value>` elements under `selector`, in document order. */
-async function dataValues(page, selector) {
-  return page.$$eval(`${selector} data`, (ds) => ds.map((d) => Number(d.getAttribute('value'))));
-}
+withChromium();
 
 test('the Soundness page shows the checks document of the JSON API', async () => {
   const { page, problems } = await watchedPage();
   await page.goto(`${base}/analyses/larkmoor`);
   await page.locator('nav.route a', { hasText: 'Soundness' }).click();
   await page.waitForURL(`${base}/analyses/larkmoor/soundness`);
-  await page.screenshot({ path: path.join(shots, 'soundness-page.png'), fullPage: true });
+  await shot(page, 'soundness-page.png');
 
-  const response = await page.request.get(`${base}/api/analyses/larkmoor/checks`);
-  assert.equal(response.status(), 200);
-  const doc = await response.json();
+  const doc = await getJson(page, `${base}/api/analyses/larkmoor/checks`);
   assert.equal(doc.kind, 'checks');
 
   // Shapiro-Wilk W and p beside the quantile chart.
@@ -114,11 +73,9 @@ test('the refit without LK-47 equals its JSON twin', async () => {
   await page.goto(`${base}/analyses/larkmoor/soundness`);
   await page.locator('a.refit-link[href$="key=LK-47"]').click();
   await page.waitForURL(`${base}/analyses/larkmoor/soundness/without?key=LK-47`);
-  await page.screenshot({ path: path.join(shots, 'soundness-without.png'), fullPage: true });
+  await shot(page, 'soundness-without.png');
 
-  const response = await page.request.get(`${base}/api/analyses/larkmoor/soundness/without?key=LK-47`);
-  assert.equal(response.status(), 200);
-  const doc = await response.json();
+  const doc = await getJson(page, `${base}/api/analyses/larkmoor/soundness/without?key=LK-47`);
   assert.equal(doc.kind, 'refit_without');
   assert.equal(doc.without.rows_used, doc.original.rows_used - 1);
 
@@ -158,7 +115,7 @@ test('leaving LK-47 out with a reason makes a new analysis and shows its soundne
     assert.equal(answer.status(), 303, `POST /analyses/larkmoor/exclude answered ${answer.status()}`);
     await page.waitForURL(/\/analyses\/[a-z0-9-]+\/soundness$/);
     assert.notEqual(new URL(page.url()).pathname, '/analyses/larkmoor/soundness', 'a new analysis');
-    await page.screenshot({ path: path.join(shots, 'soundness-excluded.png'), fullPage: true });
+    await shot(page, 'soundness-excluded.png');
     const id = new URL(page.url()).pathname.split('/')[2];
     const response = await page.request.get(`${base}/api/analyses/${id}/checks`);
     const doc = await response.json();
@@ -188,11 +145,9 @@ test('the transformation search runs again as a job and its table equals the job
   await page.locator('a#job-result').waitFor({ timeout: 60000 });
   await page.locator('a#job-result').click();
   await page.waitForURL(`${base}/analyses/larkmoor/soundness/transform?job=${job}`);
-  await page.screenshot({ path: path.join(shots, 'soundness-transform.png'), fullPage: true });
+  await shot(page, 'soundness-transform.png');
 
-  const response = await page.request.get(`${base}/api/jobs/${job}`);
-  assert.equal(response.status(), 200);
-  const doc = await response.json();
+  const doc = await getJson(page, `${base}/api/jobs/${job}`);
   assert.equal(doc.state, 'done');
   const result = doc.result;
   assert.equal(result.kind, 'transformation_search');

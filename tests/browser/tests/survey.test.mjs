@@ -1,60 +1,22 @@
 // Browser tests of the Survey and Areas pages of the demo analysis in Debian's headless
 // Chromium: every number shown equals the JSON API, a sort header reorders the table without
 // script, and the pages raise no console errors, CSP violations or failed requests.
-import { test, before, after } from 'node:test';
+import { test } from 'node:test';
 import assert from 'node:assert/strict';
 import path from 'node:path';
-import { chromium } from 'playwright-core';
+import { withChromium, watchedPage, base, shots, close, getJson, shot } from '../lib/harness.mjs';
 
-const base = process.env.WARDCAST_URL;
-const shots = process.env.WARDCAST_ARTIFACTS;
-let browser;
-
-before(async () => {
-  assert.ok(base, 'WARDCAST_URL names the running server');
-  browser = await chromium.launch({
-    executablePath: '/usr/bin/chromium',
-    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-      '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-  });
-});
-
-after(async () => {
-  await browser?.close();
-});
-
-/** A fresh page that records console errors, page errors, failed requests and CSP violations. */
-async function watchedPage() {
-  const page = await browser.newPage({ viewport: { width: 1280, height: 900 } });
-  const problems = [];
-  page.on('console', (m) => { if (m.type() === 'error') problems.push(`console: ${m.text()}`); });
-  page.on('pageerror', (e) => problems.push(`page error: ${e.message}`));
-  page.on('response', (r) => { if (r.status() >= 400) problems.push(`HTTP ${r.status()} for ${r.url()}`); });
-  await page.addInitScript(() => {
-    document.addEventListener('securitypolicyviolation', (e) => {
-      console.error(`CSP violation: ${e.violatedDirective} ${e.blockedURI}`);
-    });
-  });
-  return { page, problems };
-}
-
-const close = (a, b) => Math.abs(a - b) <= 1e-12 * Math.max(1, Math.abs(b));
+withChromium();
 
 /** The number in a `<data value>` attribute; an empty value (undefined) is null. */
 const valueOf = (raw) => (raw === '' ? null : Number(raw));
-
-async function getJson(page, url) {
-  const response = await page.request.get(url);
-  assert.equal(response.status(), 200, url);
-  return response.json();
-}
 
 test('the Survey page shows the JSON summaries and correlations', async () => {
   const { page, problems } = await watchedPage();
   await page.goto(`${base}/analyses/larkmoor`);
   await page.locator('nav.route a', { hasText: 'Survey' }).click();
   await page.waitForURL(`${base}/analyses/larkmoor/survey`);
-  await page.screenshot({ path: path.join(shots, 'survey-page.png'), fullPage: true });
+  await shot(page, 'survey-page.png');
   const doc = await getJson(page, `${base}/api/analyses/larkmoor/survey`);
   assert.equal(doc.kind, 'survey');
 
@@ -111,7 +73,7 @@ test('the Survey page shows the JSON summaries and correlations', async () => {
 test('the Areas page shows the JSON numbers and sorts by a header link', async () => {
   const { page, problems } = await watchedPage();
   await page.goto(`${base}/analyses/larkmoor/areas`);
-  await page.screenshot({ path: path.join(shots, 'survey-areas.png'), fullPage: true });
+  await shot(page, 'survey-areas.png');
   const doc = await getJson(page, `${base}/api/analyses/larkmoor/areas`);
   assert.equal(doc.kind, 'areas');
 
@@ -151,7 +113,7 @@ test('the Areas page shows the JSON numbers and sorts by a header link', async (
   const byJson = [...doc.rows].sort((a, b) => b.residual - a.residual || a.key.localeCompare(b.key));
   assert.deepEqual(sorted.map((r) => r.key), byJson.map((r) => r.key), 'the same order as the JSON');
   assert.equal(await page.locator('th[aria-sort="descending"]').innerText(), 'Residual');
-  await page.screenshot({ path: path.join(shots, 'survey-areas-sorted.png'), fullPage: true });
+  await shot(page, 'survey-areas-sorted.png');
   await page.locator('section.areas-chart figure').screenshot({ path: path.join(shots, 'survey-areas-chart.png') });
   assert.deepEqual(problems, [], 'no console errors, CSP violations or failed requests');
   await page.close();

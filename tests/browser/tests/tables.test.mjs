@@ -1,46 +1,19 @@
 // Browser test of the Tables pages in Debian's headless Chromium: upload the Larkmoor CSVs
 // through the real form, confirm, join them, derive the rate, start an analysis and check
 // that its Effects page shows the numbers of its JSON fit. Screenshots go to WARDCAST_ARTIFACTS.
-import { test, before, after } from 'node:test';
+import { test, before } from 'node:test';
 import assert from 'node:assert/strict';
 import path from 'node:path';
-import { chromium } from 'playwright-core';
+import { withChromium, watchedPage, base, demoDir, getJson, shot, assertEffectsMatchFit } from '../lib/harness.mjs';
 
-const base = process.env.WARDCAST_URL;
-const shots = process.env.WARDCAST_ARTIFACTS;
-const demoDir = process.env.WARDCAST_DEMO_DIR;
+withChromium();
+
+before(() => {
+  assert.ok(demoDir, 'WARDCAST_DEMO_DIR names the folder of the demo CSVs');
+});
+
 const predictors = ['unemployment_pct', 'youth_share_pct', 'vacancy_pct', 'alcohol_outlets_per_1k',
   'afterschool_seats_per_100'];
-let browser;
-
-before(async () => {
-  assert.ok(base, 'WARDCAST_URL names the running server');
-  assert.ok(demoDir, 'WARDCAST_DEMO_DIR names the folder of the demo CSVs');
-  browser = await chromium.launch({
-    executablePath: '/usr/bin/chromium',
-    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-      '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-  });
-});
-
-after(async () => {
-  await browser?.close();
-});
-
-/** A fresh page that records console errors, page errors, CSP violations and HTTP errors. */
-async function watchedPage() {
-  const page = await browser.newPage({ viewport: { width: 1280, height: 900 } });
-  const problems = [];
-  page.on('console', (m) => { if (m.type() === 'error') problems.push(`console: ${m.text()}`); });
-  page.on('pageerror', (e) => problems.push(`page error: ${e.message}`));
-  page.on('response', (r) => { if (r.status() >= 400) problems.push(`HTTP ${r.status()} for ${r.url()}`); });
-  await page.addInitScript(() => {
-    document.addEventListener('securitypolicyviolation', (e) => {
-      console.error(`CSP violation: ${e.violatedDirective} ${e.blockedURI}`);
-    });
-  });
-  return { page, problems };
-}
 
 /** Uploads one CSV through the form on /tables and returns the new table's path. */
 async function uploadTable(page, file, name, key) {
@@ -53,17 +26,13 @@ async function uploadTable(page, file, name, key) {
 }
 
 /** The JSON document of a table page's path. */
-async function tableJson(page, tablePath) {
-  const response = await page.request.get(`${base}/api${tablePath}`);
-  assert.equal(response.status(), 200);
-  return response.json();
-}
+const tableJson = (page, tablePath) => getJson(page, `${base}/api${tablePath}`);
 
 test('upload, confirm, join, derive and fit from the Tables pages', async () => {
   const { page, problems } = await watchedPage();
   await page.goto(`${base}/`);
   await Promise.all([page.waitForURL(`${base}/tables`), page.click('a[href="/tables"]')]);
-  await page.screenshot({ path: path.join(shots, 'tables-empty.png'), fullPage: true });
+  await shot(page, 'tables-empty.png');
 
   // The district table: its report's counts equal the JSON's.
   const districts = await uploadTable(page, 'larkmoor_districts.csv', 'Larkmoor districts', 'district_code');
@@ -77,7 +46,7 @@ test('upload, confirm, join, derive and fit from the Tables pages', async () => 
   names.forEach((n, i) => {
     if (n !== doc.key) assert.equal(missing[i], reported[n], `missing cells of ${n}`);
   });
-  await page.screenshot({ path: path.join(shots, 'tables-report.png'), fullPage: true });
+  await shot(page, 'tables-report.png');
 
   // Confirm: the page shows the version and checksum the JSON records.
   await Promise.all([page.waitForURL(`${base}${districts}`), page.click('#confirm button')]);
@@ -99,7 +68,7 @@ test('upload, confirm, join, derive and fit from the Tables pages', async () => 
   assert.equal(doc.join.kind, 'left');
   const joinText = await page.locator('.report').innerText();
   for (const key of doc.join.unmatched_right) assert.ok(joinText.includes(key), `unmatched code ${key} is named`);
-  await page.screenshot({ path: path.join(shots, 'tables-joined.png'), fullPage: true });
+  await shot(page, 'tables-joined.png');
 
   // Derive the rate per 10,000 residents.
   await page.fill('#derive input[name="name"]', 'assault_rate_per_10k');
@@ -119,28 +88,14 @@ test('upload, confirm, join, derive and fit from the Tables pages', async () => 
     const wanted = predictors.includes(await box.getAttribute('value'));
     if ((await box.isChecked()) !== wanted) await box.setChecked(wanted);
   }
-  await page.screenshot({ path: path.join(shots, 'tables-analyse.png'), fullPage: true });
+  await shot(page, 'tables-analyse.png');
   await Promise.all([page.waitForURL(/\/analyses\/browser-model(-\d+)?$/), page.click('#analyse button')]);
   const id = new URL(page.url()).pathname.split('/').pop();
-  await page.screenshot({ path: path.join(shots, 'tables-effects.png'), fullPage: true });
+  await shot(page, 'tables-effects.png');
 
-  const response = await page.request.get(`${base}/api/analyses/${id}/fit`);
-  assert.equal(response.status(), 200);
-  const fit = await response.json();
+  const fit = await getJson(page, `${base}/api/analyses/${id}/fit`);
   assert.deepEqual(fit.spec.predictors.map((p) => p.column), predictors);
-  const shown = await page.$$eval('.effect-figures', (rows) => rows.map((r) => {
-    const values = [...r.querySelectorAll('data')].map((d) => Number(d.getAttribute('value')));
-    return { estimate: values[0], low: values[1], high: values[2], se: values[3] };
-  }));
-  const slopes = fit.coefficients.filter((c) => c.term !== '(intercept)');
-  assert.equal(shown.length, slopes.length, 'one effect per indicator');
-  const close = (a, b) => Math.abs(a - b) <= 1e-12 * Math.max(1, Math.abs(b));
-  for (const c of slopes) {
-    const row = shown.find((s) => close(s.estimate, c.estimate));
-    assert.ok(row, `the page shows the estimate of ${c.term}`);
-    assert.ok(close(row.low, c.interval.low) && close(row.high, c.interval.high), `interval of ${c.term}`);
-    assert.ok(close(row.se, c.std_error), `standard error of ${c.term}`);
-  }
+  await assertEffectsMatchFit(page, fit);
   assert.deepEqual(problems, [], 'no console errors, CSP violations or HTTP errors');
   await page.close();
 });

@@ -2,51 +2,14 @@
 // one-district scenario and an allocation run through the forms, with every number shown
 // compared to the JSON API, and no console errors or CSP violations. Screenshots go to
 // WARDCAST_ARTIFACTS as whatif-*.png.
-import { test, before, after } from 'node:test';
+import { test } from 'node:test';
 import assert from 'node:assert/strict';
 import path from 'node:path';
-import { chromium } from 'playwright-core';
+import { withChromium, watchedPage, base, shots, close, getJson, dataValues, shot } from '../lib/harness.mjs';
 
-const base = process.env.WARDCAST_URL;
-const shots = process.env.WARDCAST_ARTIFACTS;
+withChromium();
+
 const page_url = `${base}/analyses/larkmoor/what-if`;
-let browser;
-
-before(async () => {
-  assert.ok(base, 'WARDCAST_URL names the running server');
-  browser = await chromium.launch({
-    executablePath: '/usr/bin/chromium',
-    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-      '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-  });
-});
-
-after(async () => {
-  await browser?.close();
-});
-
-/** A fresh page that records console errors, page errors, failed responses and CSP violations. */
-async function watchedPage() {
-  const page = await browser.newPage({ viewport: { width: 1280, height: 900 } });
-  const problems = [];
-  page.on('console', (m) => { if (m.type() === 'error') problems.push(`console: ${m.text()}`); });
-  page.on('pageerror', (e) => problems.push(`page error: ${e.message}`));
-  page.on('response', (r) => { if (r.status() >= 400) problems.push(`HTTP ${r.status()} for ${r.url()}`); });
-  await page.addInitScript(() => {
-    document.addEventListener('securitypolicyviolation', (e) => {
-      console.error(`CSP violation: ${e.violatedDirective} ${e.blockedURI}`);
-    });
-  });
-  return { page, problems };
-}
-
-/** Equal to 1e-12, relative to the larger of 1 and |b|. */
-const close = (a, b) => Math.abs(a - b) <= 1e-12 * Math.max(1, Math.abs(b));
-
-/** The values of the data elements inside the elements matching `selector`. */
-async function dataValues(page, selector) {
-  return page.$$eval(`${selector} data`, (ds) => ds.map((d) => Number(d.getAttribute('value'))));
-}
 
 /** A prediction document's numbers in the order the page's table shows them. */
 function predictionNumbers(p) {
@@ -63,7 +26,7 @@ test('a district with a changed indicator: the page shows the JSON API numbers',
   await field.fill('9.5');
   await Promise.all([page.waitForURL(/x\.unemployment_pct=9\.5/), page.click('button:has-text("Predict")')]);
   await page.locator('#one-result').scrollIntoViewIfNeeded();
-  await page.screenshot({ path: path.join(shots, 'whatif-one-area.png'), fullPage: true });
+  await shot(page, 'whatif-one-area.png');
 
   const response = await page.request.post(`${base}/api/analyses/larkmoor/what-if/predict`, {
     headers: { Origin: base, 'Content-Type': 'application/json' },
@@ -112,11 +75,9 @@ test('an allocation through the form: amounts equal the JSON and sum to the tota
   await page.fill('#al-seed', '7');
   await Promise.all([page.waitForURL(/allocation=latest/), page.click('button:has-text("Run the allocation")')]);
   await page.locator('#allocation-result').scrollIntoViewIfNeeded();
-  await page.screenshot({ path: path.join(shots, 'whatif-allocation.png'), fullPage: true });
+  await shot(page, 'whatif-allocation.png');
 
-  const response = await page.request.get(`${base}/api/analyses/larkmoor/what-if/allocation`);
-  assert.equal(response.status(), 200);
-  const doc = await response.json();
+  const doc = await getJson(page, `${base}/api/analyses/larkmoor/what-if/allocation`);
   assert.equal(doc.settings.total, 5000000);
   assert.equal(doc.settings.basis, 'blend');
   assert.deepEqual([doc.settings.floor, doc.settings.cap, doc.settings.seed, doc.settings.draws], [30000, 140000, 7, 500]);
@@ -163,9 +124,7 @@ test('a scenario added to the brief: the Brief page shows its row with the same 
     page.locator('#one-result').getByRole('button', { name: 'Add to the brief' }).click(),
   ]);
 
-  const response = await page.request.get(`${base}/api/analyses/larkmoor/what-if/kept`);
-  assert.equal(response.status(), 200);
-  const kept = await response.json();
+  const kept = await getJson(page, `${base}/api/analyses/larkmoor/what-if/kept`);
   assert.ok(kept.length >= 1, 'the scenario is kept');
   const doc = kept[kept.length - 1];
   assert.equal(doc.one_area.area, 'LK-20');

@@ -580,22 +580,7 @@ fn lcg(seed: &mut u64) -> f64 {
 fn search_finds_a_planted_log_and_never_changes_the_model() {
     // y = 5 + 4·ln(x1) + 0.3·x2 + small noise, x1 spread over two decades: the best candidate
     // must take the log of x1; the model as fitted is untouched and is in the table.
-    let mut s = 7u64;
-    let n = 80;
-    let x1: Vec<f64> = (0..n).map(|_| 10f64.powf(2.0 * lcg(&mut s))).collect();
-    let x2: Vec<f64> = (0..n).map(|_| 1.0 + 9.0 * lcg(&mut s)).collect();
-    let y: Vec<f64> =
-        (0..n).map(|i| 5.0 + 4.0 * x1[i].ln() + 0.3 * x2[i] + 0.2 * (lcg(&mut s) - 0.5)).collect();
-    let d = Design::from_matrix(
-        Matrix::from_columns(&[x1, x2]),
-        y,
-        None,
-        vec!["x1".into(), "x2".into()],
-        keys(n),
-        true,
-    )
-    .expect("design");
-    let fit = Fit::new(&d, &FitOptions::default()).expect("fit");
+    let fit = planted_log_fit();
     let before = fit.coefficients().to_vec();
     let checks = diagnostics::run(&fit, &CheckOptions::default());
     let search = ok(checks.search(), "search");
@@ -779,7 +764,7 @@ fn demo_arena_is_flagged_and_vacancy_wants_a_log() {
     assert!(best_vacancy.rank() < current.rank(), "{} vs current", best_vacancy.label());
 }
 
-/// The planted-log data of `search_finds_a_planted_log_and_never_changes_the_model`, fitted.
+/// y = 5 + 4·ln(x1) + 0.3·x2 + small noise over 80 rows, x1 spread over two decades, fitted.
 fn planted_log_fit() -> Fit {
     let mut s = 7u64;
     let n = 80;

@@ -737,14 +737,7 @@ assumptions hold, and the intervals and p-values should be given little weight."
             x_axis: Axis::new("Fitted value", ctx.response_unit.clone()),
             y_axis: Axis::new("Residual", ctx.response_unit.clone()),
             items: "districts".into(),
-            points: result
-                .points
-                .iter()
-                .map(|p| {
-                    let pt = ScatterPoint::new(p.x, p.y).labelled(&p.key);
-                    if flagged.contains(&p.key) { pt.flagged() } else { pt }
-                })
-                .collect(),
+            points: result.points.iter().map(|p| ScatterPoint::keyed(p.x, p.y, &p.key, &flagged)).collect(),
             references: vec![Reference::Horizontal { y: 0.0, label: "Residual of zero".into() }],
             labels: PointLabels::Flagged,
             flagged_meaning: "Influential district".into(),
@@ -764,20 +757,7 @@ assumptions hold, and the intervals and p-values should be given little weight."
             x_axis: Axis::new("Standard normal quantile", ""),
             y_axis: Axis::new("Standardized residual", ""),
             items: "districts".into(),
-            points: result
-                .points
-                .iter()
-                .map(|p| QqPoint {
-                    theoretical: p.x,
-                    sample: p.y,
-                    label: Some(p.key.clone()),
-                    emphasis: if flagged.contains(&p.key) {
-                        crate::svg::Emphasis::Flagged
-                    } else {
-                        crate::svg::Emphasis::Normal
-                    },
-                })
-                .collect(),
+            points: result.points.iter().map(|p| QqPoint::keyed(p.x, p.y, &p.key, &flagged)).collect(),
             line: QqLine::Quartiles,
             labels: PointLabels::Flagged,
             flagged_meaning: "Influential district".into(),

@@ -6,7 +6,7 @@
 //! document that was computed elsewhere (the web app's subset-search job).
 
 use wardcast_contract::selection::{ModelDoc, SelectionDocument};
-use wardcast_contract::spec::{ModelSpec, PredictorSpec};
+use wardcast_contract::spec::ModelSpec;
 use wardcast_engine::selection::{self, Candidates, CvOptions, SearchOptions};
 use wardcast_engine::{Design, Table};
 
@@ -22,17 +22,7 @@ pub fn model_choice(
     candidates: &[String],
     cv: &ChoiceCv,
 ) -> Result<ModelChoice> {
-    let mut full = spec.clone();
-    full.predictors = candidates
-        .iter()
-        .map(|c| {
-            spec.predictors.iter().find(|p| &p.column == c).cloned().unwrap_or(PredictorSpec {
-                column: c.clone(),
-                transform: None,
-                reference_level: None,
-            })
-        })
-        .collect();
+    let full = spec.with_predictor_columns(candidates);
     let design = Design::build(table, &full.to_engine()?)?;
     let cands = Candidates::from_design(&design)?;
     let search = selection::best_subsets(&cands, &SearchOptions { top: 10, ..SearchOptions::default() })?;

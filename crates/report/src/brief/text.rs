@@ -51,14 +51,7 @@ pub fn fmt_amount(x: f64) -> String {
     }
     let rounded = x.round();
     let negative = rounded < 0.0;
-    let digits = format!("{:.0}", rounded.abs());
-    let mut out = String::new();
-    for (i, c) in digits.chars().enumerate() {
-        if i > 0 && (digits.len() - i) % 3 == 0 {
-            out.push(',');
-        }
-        out.push(c);
-    }
+    let out = crate::svg::text::group_digits(&format!("{:.0}", rounded.abs()));
     if negative && out != "0" { format!("-{out}") } else { out }
 }
 

@@ -6,11 +6,8 @@ use super::doc::{
 };
 use super::scale::{LinearScale, Ticks, extent};
 use super::text::{count_of, count_verb, estimate_width, fixed, plottable, truncate};
-use super::{Axis, CHART_WIDTH, Chart, palette};
-use crate::{ReportError, Result};
-
-/// The light tint of the data colour used for interval bars.
-const INTERVAL_TINT: &str = "#a9c8d2";
+use super::{Axis, CHART_WIDTH, Chart, check_interval, palette};
+use crate::Result;
 
 /// One row of an effect plot.
 #[derive(Debug, Clone, Default, PartialEq)]
@@ -52,12 +49,7 @@ const ROW_HEIGHT: f64 = 44.0;
 impl Chart for EffectPlot {
     fn render(&self) -> Result<String> {
         for row in &self.rows {
-            if plottable(row.low) && plottable(row.high) && row.low > row.high {
-                return Err(ReportError::chart(
-                    CHART,
-                    format!("the interval of \"{}\" has its lower end above its upper end", row.label.trim()),
-                ));
-            }
+            check_interval(CHART, &row.label, row.low, row.high)?;
         }
         let interval_name =
             if self.interval_name.trim().is_empty() { "Interval" } else { self.interval_name.trim() };
@@ -98,7 +90,10 @@ impl Chart for EffectPlot {
         let right = CHART_WIDTH - MARGIN - values_width - 16.0;
         let mut legend = vec![
             LegendEntry { swatch: Swatch::Dot(palette::DATA), text: "Estimate".to_owned() },
-            LegendEntry { swatch: Swatch::Line(INTERVAL_TINT, Dash::Solid), text: interval_name.to_owned() },
+            LegendEntry {
+                swatch: Swatch::Line(palette::INTERVAL, Dash::Solid),
+                text: interval_name.to_owned(),
+            },
         ];
         if reference.is_some() && !self.reference_label.trim().is_empty() {
             legend.push(LegendEntry {
@@ -161,7 +156,7 @@ impl Chart for EffectPlot {
             }
             let tip = format!("{}: {}", row.label.trim(), text);
             if plottable(row.low) && plottable(row.high) {
-                svg.interval_bar((x.map(row.low), x.map(row.high)), cy, 12.0, INTERVAL_TINT, Some(&tip));
+                svg.interval_bar((x.map(row.low), x.map(row.high)), cy, 12.0, palette::INTERVAL, Some(&tip));
             }
             svg.circle(
                 (x.map(row.estimate), cy),

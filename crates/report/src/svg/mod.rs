@@ -111,6 +111,18 @@ pub enum PointLabels {
     All,
 }
 
+/// Refuses an interval whose lower end lies above its upper end; `label` names its row in the
+/// error of the chart `chart`. Intervals with an end that cannot be plotted are left alone.
+pub(crate) fn check_interval(chart: &'static str, label: &str, low: f64, high: f64) -> Result<()> {
+    if text::plottable(low) && text::plottable(high) && low > high {
+        return Err(crate::ReportError::chart(
+            chart,
+            format!("the interval of \"{}\" has its lower end above its upper end", label.trim()),
+        ));
+    }
+    Ok(())
+}
+
 /// The plural noun for the things a chart counts, e.g. "districts".
 pub(crate) fn items_or_default(items: &str) -> &str {
     let items = items.trim();

@@ -19,6 +19,8 @@ pub const GRID: &str = "#e4e0d6";
 pub const DATA: &str = "#17607a";
 /// The accent for flagged points (terracotta).
 pub const ACCENT: &str = "#b9502c";
+/// The light tint of the data colour used for interval bars.
+pub const INTERVAL: &str = "#a9c8d2";
 /// Reference lines and curves (deep ochre).
 pub const REFERENCE: &str = "#8c6a1c";
 /// Fill of the heat map's diagonal (each column with itself), kept quiet on purpose.

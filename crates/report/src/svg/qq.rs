@@ -18,6 +18,14 @@ pub struct QqPoint {
     pub emphasis: Emphasis,
 }
 
+impl QqPoint {
+    /// A point named `key`, flagged when `key` is one of the `flagged` keys.
+    pub fn keyed(theoretical: f64, sample: f64, key: &str, flagged: &[String]) -> Self {
+        let emphasis = if flagged.iter().any(|f| f == key) { Emphasis::Flagged } else { Emphasis::Normal };
+        QqPoint { theoretical, sample, label: Some(key.to_owned()), emphasis }
+    }
+}
+
 /// Which reference line a QQ plot draws.
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
 pub enum QqLine {

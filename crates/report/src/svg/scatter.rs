@@ -39,6 +39,12 @@ impl ScatterPoint {
         self.emphasis = Emphasis::Flagged;
         self
     }
+
+    /// A point named `key`, flagged when `key` is one of the `flagged` keys.
+    pub fn keyed(x: f64, y: f64, key: &str, flagged: &[String]) -> Self {
+        let point = Self::new(x, y).labelled(key);
+        if flagged.iter().any(|f| f == key) { point.flagged() } else { point }
+    }
 }
 
 /// A reference drawn beneath the points.

@@ -11,11 +11,8 @@ use super::doc::{
 };
 use super::scale::{LinearScale, Ticks, extent};
 use super::text::{count_of, estimate_width, plottable, significant, singular_of, truncate};
-use super::{Axis, CHART_WIDTH, Chart, Emphasis, items_or_default, palette};
-use crate::{ReportError, Result};
-
-/// The light tint of the data colour used for interval bars.
-const INTERVAL_TINT: &str = "#a9c8d2";
+use super::{Axis, CHART_WIDTH, Chart, Emphasis, check_interval, items_or_default, palette};
+use crate::Result;
 
 /// One line of an interval strip.
 #[derive(Debug, Clone, Default, PartialEq)]
@@ -59,12 +56,7 @@ const ROW_HEIGHT: f64 = 20.0;
 impl Chart for IntervalStrip {
     fn render(&self) -> Result<String> {
         for row in &self.rows {
-            if plottable(row.low) && plottable(row.high) && row.low > row.high {
-                return Err(ReportError::chart(
-                    CHART,
-                    format!("the interval of \"{}\" has its lower end above its upper end", row.label.trim()),
-                ));
-            }
+            check_interval(CHART, &row.label, row.low, row.high)?;
         }
         let items = items_or_default(&self.items);
         let interval_name =
@@ -77,7 +69,7 @@ impl Chart for IntervalStrip {
         let labels: Vec<String> = self.rows.iter().map(|r| truncate(r.label.trim(), 18)).collect();
         let label_width = labels.iter().map(|l| estimate_width(l, doc::SMALL_SIZE)).fold(40.0, f64::max);
         let mut legend = vec![
-            LegendEntry { swatch: Swatch::Block(INTERVAL_TINT), text: interval_name.to_owned() },
+            LegendEntry { swatch: Swatch::Block(palette::INTERVAL), text: interval_name.to_owned() },
             LegendEntry { swatch: Swatch::Line(palette::INK, Dash::Solid), text: "Predicted".to_owned() },
             LegendEntry { swatch: Swatch::Dot(palette::DATA), text: "Observed".to_owned() },
         ];
@@ -152,7 +144,7 @@ impl Chart for IntervalStrip {
                 significant(row.high, 4)
             );
             if plottable(row.low) && plottable(row.high) {
-                svg.interval_bar((x.map(row.low), x.map(row.high)), cy, 10.0, INTERVAL_TINT, Some(&tip));
+                svg.interval_bar((x.map(row.low), x.map(row.high)), cy, 10.0, palette::INTERVAL, Some(&tip));
             }
             if plottable(row.predicted) {
                 let px = x.map(row.predicted);

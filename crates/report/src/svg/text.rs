@@ -53,9 +53,12 @@ pub fn fixed(value: f64, decimals: usize) -> String {
 
 /// Inserts commas every three digits when the integer part has five or more digits.
 fn group_thousands(digits: &str) -> String {
-    if digits.len() < 5 {
-        return digits.to_owned();
-    }
+    if digits.len() < 5 { digits.to_owned() } else { group_digits(digits) }
+}
+
+/// Inserts a comma before every group of three digits counted from the right, e.g.
+/// `1250000` → `1,250,000`; `digits` is a run of ASCII digits without sign or decimals.
+pub fn group_digits(digits: &str) -> String {
     let mut out = String::with_capacity(digits.len() + digits.len() / 3);
     for (i, c) in digits.chars().enumerate() {
         if i > 0 && (digits.len() - i).is_multiple_of(3) {

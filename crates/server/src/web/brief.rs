@@ -29,6 +29,7 @@ use wardcast_contract::dataset::ColumnMeta;
 use wardcast_report::ReportError;
 use wardcast_report::brief::{AllocationView, Brief, BriefInput, Cell, html, pdf, tables};
 
+use super::forms::{self, FormReading};
 use super::pages::{Layout, Section, render};
 use super::state::Analysis;
 use super::{Ctx, blocking, see_other_to};
@@ -38,8 +39,12 @@ use crate::error::{ApiError, Result, ServerError};
 pub const QUESTION_MAX_CHARS: usize = 600;
 /// The longest author name accepted, in characters.
 pub const AUTHOR_MAX_CHARS: usize = 120;
-/// The largest brief form accepted, in bytes (both fields fully percent-encoded, with room).
-const FORM_LIMIT: usize = 16 * 1024;
+/// How the brief form is read: 16 KiB holds both fields fully percent-encoded, with room.
+const BRIEF_FORM: FormReading = FormReading {
+    limit: 16 * 1024,
+    not_a_form: "The brief form must be sent as a web form.",
+    unreadable: "The brief form could not be read.",
+};
 
 /// The routes of this page.
 pub(crate) fn routes() -> Router<Ctx> {
@@ -362,18 +367,8 @@ pub async fn save(
     request: Request<Body>,
 ) -> Result<Response> {
     let analysis = ctx.analysis(&id)?;
-    let is_form = request
-        .headers()
-        .get(header::CONTENT_TYPE)
-        .and_then(|v| v.to_str().ok())
-        .is_some_and(|v| v.trim().to_ascii_lowercase().starts_with("application/x-www-form-urlencoded"));
-    if !is_form {
-        return Err(ServerError::BadRequest("The brief form must be sent as a web form.".into()));
-    }
-    let body = super::read_body(request.into_body(), FORM_LIMIT).await?;
-    let pairs = form_pairs(&body)
-        .ok_or_else(|| ServerError::BadRequest("The brief form could not be read.".into()))?;
-    let get = |name: &str| pairs.iter().find(|(k, _)| k == name).map(|(_, v)| v.clone());
+    let pairs = forms::read(request, BRIEF_FORM).await?;
+    let get = |name: &str| forms::first(&pairs, name).map(str::to_owned);
     if get("question").is_none() && get("author").is_none() {
         return Err(ServerError::BadRequest(
             "The brief form has neither a question nor an author field.".into(),
@@ -392,36 +387,6 @@ pub async fn save(
         }
     })?;
     Ok(see_other_to(&format!("/analyses/{}/brief", analysis.id())))
-}
-
-fn form_pairs(body: &[u8]) -> Option<Vec<(String, String)>> {
-    let text = std::str::from_utf8(body).ok()?;
-    let mut pairs = Vec::new();
-    for part in text.split('&').filter(|p| !p.is_empty()) {
-        let (k, v) = part.split_once('=').unwrap_or((part, ""));
-        pairs.push((percent_decode(k)?, percent_decode(v)?));
-    }
-    Some(pairs)
-}
-
-/// Decodes `+` and `%XX` escapes; `None` for malformed escapes or invalid UTF-8.
-fn percent_decode(text: &str) -> Option<String> {
-    let bytes = text.as_bytes();
-    let mut out = Vec::with_capacity(bytes.len());
-    let mut i = 0;
-    while i < bytes.len() {
-        match bytes[i] {
-            b'+' => out.push(b' '),
-            b'%' => {
-                let hex = text.get(i + 1..i + 3)?;
-                out.push(u8::from_str_radix(hex, 16).ok()?);
-                i += 2;
-            }
-            b => out.push(b),
-        }
-        i += 1;
-    }
-    String::from_utf8(out).ok()
 }
 
 async fn download(ctx: Ctx, id: String, format: BriefFormat) -> Result<Response> {

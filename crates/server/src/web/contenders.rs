@@ -21,8 +21,8 @@ use askama::Template;
 use axum::Json;
 use axum::Router;
 use axum::body::Bytes;
-use axum::extract::rejection::{FormRejection, QueryRejection};
-use axum::extract::{Form, Path, Query, State};
+use axum::extract::rejection::QueryRejection;
+use axum::extract::{Path, Query, Request, State};
 use axum::http::{HeaderValue, StatusCode, header};
 use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
@@ -32,7 +32,8 @@ use wardcast_report::svg::{Axis, Callout, Chart, LinePlot, LineSeries, XTicks};
 
 use self::compute::{CompareDocument, ContendersResult, DropCv, DropOneDocument, SearchRequest};
 use super::effects::Figure;
-use super::jobs::{Job, JobSpec, JobState};
+use super::forms::{self, FormReading};
+use super::jobs::{self, Finished, Job, JobSpec, JobState};
 use super::pages::{Layout, Section, render};
 use super::state::Analysis;
 use super::words::{fmt_num, fmt_p};
@@ -612,35 +613,18 @@ fn default_drop_cv() -> DropCv {
     DropCv { folds: compute::DEFAULT_FOLDS, repeats: compute::DEFAULT_REPEATS, seed: compute::DEFAULT_SEED }
 }
 
-/// A search's result, or why a job has none to show.
-type Outcome = std::result::Result<Arc<ContendersResult>, String>;
-
 /// The finished contenders result of a job of this analysis, or why there is none.
-fn job_result(ctx: &Ctx, analysis: &Analysis, job_id: &str) -> Result<(Arc<Job>, Outcome)> {
-    let valid =
-        job_id.len() <= 24 && job_id.starts_with('j') && job_id[1..].bytes().all(|b| b.is_ascii_digit());
-    if !valid {
-        return Err(ServerError::BadRequest("A job id is the letter j followed by digits.".into()));
-    }
-    let job = ctx
-        .app()
-        .jobs()
-        .get(job_id)?
-        .filter(|j| j.analysis() == analysis.id())
-        .ok_or_else(|| ServerError::NotFound(format!("This analysis has no job called {job_id:?}.")))?;
-    let outcome = match job.state() {
-        JobState::Running => {
-            Err("This search is still running; its progress page shows how far it has come.".into())
-        }
-        JobState::Cancelled => {
-            Err("This search was cancelled before it finished, so it has no result.".into())
-        }
-        JobState::Failed(e) => Err(format!("This search stopped: {e}")),
-        JobState::Done { .. } => job.result::<ContendersResult>().ok_or_else(|| {
-            "This job is not a subset search, so its result is shown on its own page.".to_owned()
-        }),
-    };
-    Ok((job, outcome))
+fn job_result(
+    ctx: &Ctx,
+    analysis: &Analysis,
+    job_id: &str,
+) -> Result<(Arc<Job>, Finished<ContendersResult>)> {
+    jobs::finished(
+        ctx,
+        analysis.id(),
+        job_id,
+        "This job is not a subset search, so its result is shown on its own page.",
+    )
 }
 
 /// `GET /analyses/{id}/contenders`.
@@ -804,13 +788,9 @@ async fn start_search(ctx: &Ctx, id: &str, request: SearchRequest) -> Result<Arc
 }
 
 /// `POST /analyses/{id}/contenders/search`: starts a search; 303 to its progress page.
-async fn form_search(
-    State(ctx): State<Ctx>,
-    Path(id): Path<String>,
-    form: std::result::Result<Form<Vec<(String, String)>>, FormRejection>,
-) -> Result<Response> {
-    let Form(pairs) =
-        form.map_err(|_| ServerError::BadRequest("The search form must be sent as a web form.".into()))?;
+async fn form_search(State(ctx): State<Ctx>, Path(id): Path<String>, request: Request) -> Result<Response> {
+    let pairs =
+        forms::read(request, FormReading::plain("The search form must be sent as a web form.")).await?;
     let request = request_from_form(&pairs)?;
     let job = start_search(&ctx, &id, request).await?;
     Ok(super::see_other_to(&format!("/jobs/{}", job.id())))

@@ -307,12 +307,52 @@ pub(crate) fn routes() -> Router<Ctx> {
         .route("/api/jobs/{job}/cancel", post(api_cancel))
 }
 
-fn find(ctx: &Ctx, id: &str) -> Result<Arc<Job>> {
+/// Refuses a malformed job id: one is the letter j followed by digits, 24 characters at most.
+fn check_id(id: &str) -> Result<()> {
     let valid = id.len() <= 24 && id.starts_with('j') && id[1..].bytes().all(|b| b.is_ascii_digit());
-    if !valid {
-        return Err(ServerError::BadRequest("A job id is the letter j followed by digits.".into()));
+    if valid {
+        Ok(())
+    } else {
+        Err(ServerError::BadRequest("A job id is the letter j followed by digits.".into()))
     }
+}
+
+fn find(ctx: &Ctx, id: &str) -> Result<Arc<Job>> {
+    check_id(id)?;
     ctx.app.jobs().get(id)?.ok_or_else(|| ServerError::NotFound(format!("There is no job called {id:?}.")))
+}
+
+/// A search job's finished result, or the sentence that says why it has none to show.
+pub(crate) type Finished<T> = std::result::Result<Arc<T>, String>;
+
+/// The search job `job_id` of the analysis `analysis` with its finished result of type `T`, or
+/// the sentence that says why there is none; `other_kind` is said of a job that finished with a
+/// result of another kind. A malformed id is a bad request; a job of another analysis is not
+/// found.
+pub(crate) fn finished<T: Any + Send + Sync>(
+    ctx: &Ctx,
+    analysis: &str,
+    job_id: &str,
+    other_kind: &str,
+) -> Result<(Arc<Job>, Finished<T>)> {
+    check_id(job_id)?;
+    let job = ctx
+        .app
+        .jobs()
+        .get(job_id)?
+        .filter(|j| j.analysis() == analysis)
+        .ok_or_else(|| ServerError::NotFound(format!("This analysis has no job called {job_id:?}.")))?;
+    let outcome = match job.state() {
+        JobState::Running => {
+            Err("This search is still running; its progress page shows how far it has come.".into())
+        }
+        JobState::Cancelled => {
+            Err("This search was cancelled before it finished, so it has no result.".into())
+        }
+        JobState::Failed(e) => Err(format!("This search stopped: {e}")),
+        JobState::Done { .. } => job.result::<T>().ok_or_else(|| other_kind.to_owned()),
+    };
+    Ok((job, outcome))
 }
 
 /// The job page.

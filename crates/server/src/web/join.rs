@@ -15,12 +15,24 @@ use axum::http::{HeaderValue, header};
 use axum::response::Response;
 
 use super::Ctx;
+use super::forms::{self, FormReading};
 use super::pages::{Layout, render};
 use crate::error::{Result, ServerError};
 use crate::security::Security;
 
-/// The largest join form accepted; a token field is 66 bytes.
-const JOIN_FORM_LIMIT: usize = 4096;
+/// How the join form is read: a token field is 66 bytes, so 4 KiB is plenty.
+const JOIN_FORM: FormReading = FormReading {
+    limit: 4096,
+    not_a_form: "The joining form must be sent as a web form.",
+    unreadable: NO_TOKEN_FIELD,
+};
+
+/// Said when the join form carries no readable token.
+const NO_TOKEN_FIELD: &str = "The joining form has no token field.";
+
+fn no_token_field() -> ServerError {
+    ServerError::BadRequest(NO_TOKEN_FIELD.into())
+}
 
 /// The continue page.
 #[derive(Debug, Template)]
@@ -81,57 +93,12 @@ pub async fn exchange(State(ctx): State<Ctx>, request: Request<Body>) -> Result<
     if !ctx.security.config().is_shared() {
         return Err(not_sharing());
     }
-    let is_form = request
-        .headers()
-        .get(header::CONTENT_TYPE)
-        .and_then(|v| v.to_str().ok())
-        .is_some_and(|v| v.trim().to_ascii_lowercase().starts_with("application/x-www-form-urlencoded"));
-    if !is_form {
-        return Err(ServerError::BadRequest("The joining form must be sent as a web form.".into()));
-    }
-    let body = super::read_body(request.into_body(), JOIN_FORM_LIMIT).await?;
-    let token = form_urlencoded_field(&body, "t")
-        .ok_or_else(|| ServerError::BadRequest("The joining form has no token field.".into()))?;
-    let role = ctx.security.token_role(&token).ok_or_else(bad_link)?;
+    let fields = forms::read(request, JOIN_FORM).await?;
+    let token = forms::first(&fields, "t").ok_or_else(no_token_field)?;
+    let role = ctx.security.token_role(token).ok_or_else(bad_link)?;
     let session = ctx.security.open_session(role)?;
     let cookie = Security::session_cookie_header(&session)?;
     let mut response = super::see_other("/");
     response.headers_mut().insert(header::SET_COOKIE, cookie);
     Ok(no_store(response))
-}
-
-/// Reads one field of an `application/x-www-form-urlencoded` body.
-fn form_urlencoded_field(body: &[u8], name: &str) -> Option<String> {
-    let pairs: Vec<(String, String)> = form_pairs(body)?;
-    pairs.into_iter().find(|(k, _)| k == name).map(|(_, v)| v)
-}
-
-fn form_pairs(body: &[u8]) -> Option<Vec<(String, String)>> {
-    let text = std::str::from_utf8(body).ok()?;
-    let mut pairs = Vec::new();
-    for part in text.split('&').filter(|p| !p.is_empty()) {
-        let (k, v) = part.split_once('=').unwrap_or((part, ""));
-        pairs.push((percent_decode(k)?, percent_decode(v)?));
-    }
-    Some(pairs)
-}
-
-/// Decodes `+` and `%XX` escapes; `None` for malformed escapes or invalid UTF-8.
-fn percent_decode(text: &str) -> Option<String> {
-    let bytes = text.as_bytes();
-    let mut out = Vec::with_capacity(bytes.len());
-    let mut i = 0;
-    while i < bytes.len() {
-        match bytes[i] {
-            b'+' => out.push(b' '),
-            b'%' => {
-                let hex = text.get(i + 1..i + 3)?;
-                out.push(u8::from_str_radix(hex, 16).ok()?);
-                i += 2;
-            }
-            b => out.push(b),
-        }
-        i += 1;
-    }
-    String::from_utf8(out).ok()
 }

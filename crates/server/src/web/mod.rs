@@ -28,6 +28,7 @@ pub mod brief;
 pub mod contenders;
 pub mod demo;
 pub mod effects;
+mod forms;
 pub mod jobs;
 mod join;
 pub mod pages;

@@ -20,7 +20,7 @@ use std::sync::Arc;
 use askama::Template;
 use axum::Json;
 use axum::extract::{Path, State};
-use axum::http::{HeaderMap, StatusCode, header};
+use axum::http::StatusCode;
 use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
 use axum::{Router, extract::Request};
@@ -31,6 +31,7 @@ use wardcast_contract::spec::{ExclusionSpec, ModelSpec, PredictorSpec, Transform
 use wardcast_engine::{ColumnData, Table};
 use wardcast_report::brief::ChoiceCv;
 
+use super::forms::{self, FormReading};
 use super::pages::{Layout, Section, render, section_href};
 use super::state::{Analysis, AnalysisParts, AppState, Glossary, Source};
 use super::{Ctx, blocking, read_body, see_other_to};
@@ -58,61 +59,16 @@ pub(crate) fn routes() -> Router<Ctx> {
 
 // ---- Reading request bodies ----
 
-/// Decodes one `application/x-www-form-urlencoded` component (`+` is a space).
-fn percent_decode(text: &str) -> Option<String> {
-    let bytes = text.as_bytes();
-    let mut out = Vec::with_capacity(bytes.len());
-    let mut i = 0;
-    while i < bytes.len() {
-        match bytes[i] {
-            b'+' => out.push(b' '),
-            b'%' => {
-                let hex = bytes.get(i + 1..i + 3)?;
-                let hex = std::str::from_utf8(hex).ok()?;
-                out.push(u8::from_str_radix(hex, 16).ok()?);
-                i += 2;
-            }
-            b => out.push(b),
-        }
-        i += 1;
-    }
-    String::from_utf8(out).ok()
-}
-
-/// The fields of a form body, in order (repeated names kept).
-fn parse_form(body: &[u8]) -> Result<Vec<(String, String)>> {
-    let bad = || ServerError::BadRequest("The form could not be read. Send it again from the page.".into());
-    let text = std::str::from_utf8(body).map_err(|_| bad())?;
-    let mut fields = Vec::new();
-    for pair in text.split('&').filter(|p| !p.is_empty()) {
-        let (name, value) = pair.split_once('=').unwrap_or((pair, ""));
-        fields.push((percent_decode(name).ok_or_else(bad)?, percent_decode(value).ok_or_else(bad)?));
-    }
-    Ok(fields)
-}
-
-fn content_type_is(headers: &HeaderMap, wanted: &str) -> bool {
-    headers
-        .get(header::CONTENT_TYPE)
-        .and_then(|v| v.to_str().ok())
-        .and_then(|v| v.split(';').next())
-        .is_some_and(|v| v.trim().eq_ignore_ascii_case(wanted))
-}
-
-/// Reads a form post: the body must be a URL-encoded form.
-async fn read_form(request: Request) -> Result<Vec<(String, String)>> {
-    if !content_type_is(request.headers(), "application/x-www-form-urlencoded") {
-        return Err(ServerError::BadRequest(
-            "This address takes a form (application/x-www-form-urlencoded), sent from the page.".into(),
-        ));
-    }
-    let bytes = read_body(request.into_body(), BODY_LIMIT).await?;
-    parse_form(&bytes)
-}
+/// How the set-up, exclusion and save forms are read.
+const FORM: FormReading = FormReading {
+    limit: BODY_LIMIT,
+    not_a_form: "This address takes a form (application/x-www-form-urlencoded), sent from the page.",
+    unreadable: "The form could not be read. Send it again from the page.",
+};
 
 /// Reads a JSON post into `T`.
 async fn read_json<T: serde::de::DeserializeOwned>(request: Request) -> Result<T> {
-    if !content_type_is(request.headers(), "application/json") {
+    if !forms::content_type_is(request.headers(), "application/json") {
         return Err(ServerError::BadRequest("This address takes a JSON body (application/json).".into()));
     }
     let bytes = read_body(request.into_body(), BODY_LIMIT).await?;
@@ -127,7 +83,7 @@ struct Fields {
 
 impl Fields {
     fn first(&self, name: &str) -> Option<&str> {
-        self.all.iter().find(|(n, _)| n == name).map(|(_, v)| v.as_str())
+        forms::first(&self.all, name)
     }
 
     fn every(&self, name: &str) -> Vec<&str> {
@@ -830,7 +786,7 @@ async fn refused_page(
 /// `POST /analyses/{id}/refit`: the set-up form.
 async fn refit_form(State(ctx): State<Ctx>, Path(id): Path<String>, request: Request) -> Result<Response> {
     let analysis = ctx.analysis(&id)?;
-    let fields = Fields { all: read_form(request).await? };
+    let fields = Fields { all: forms::read(request, FORM).await? };
     let PostedSetup { spec, name, mut problems } = read_setup(&fields, analysis.spec());
     problems.extend(spec_problems(&spec, analysis.table()));
     let name = if name.is_empty() { format!("{}, revised", analysis.name()) } else { name };
@@ -901,7 +857,7 @@ async fn exclude(ctx: &Ctx, analysis: &Arc<Analysis>, key: &str, reason: &str) -
 /// `POST /analyses/{id}/exclude`: the one-click exclusion (fields `key`, `reason`, `then`).
 async fn exclude_form(State(ctx): State<Ctx>, Path(id): Path<String>, request: Request) -> Result<Response> {
     let analysis = ctx.analysis(&id)?;
-    let fields = Fields { all: read_form(request).await? };
+    let fields = Fields { all: forms::read(request, FORM).await? };
     let then = then_section(fields.first("then"))?;
     let key = fields.first("key").unwrap_or("");
     let reason = fields.first("reason").unwrap_or("");
@@ -997,7 +953,7 @@ async fn save(ctx: &Ctx, analysis: &Arc<Analysis>, request: SaveRequest) -> Resu
 /// `POST /analyses/{id}/save`: the save form (title, question, author).
 async fn save_form(State(ctx): State<Ctx>, Path(id): Path<String>, request: Request) -> Result<Response> {
     let analysis = ctx.analysis(&id)?;
-    let fields = Fields { all: read_form(request).await? };
+    let fields = Fields { all: forms::read(request, FORM).await? };
     let text = |n: &str| fields.first(n).unwrap_or("").to_owned();
     save(
         &ctx,

@@ -18,7 +18,7 @@ use std::sync::{Arc, RwLock};
 
 use askama::Template;
 use axum::body::Bytes;
-use axum::extract::{DefaultBodyLimit, Form, Multipart, Path, State};
+use axum::extract::{DefaultBodyLimit, Multipart, Path, Request, State};
 use axum::http::StatusCode;
 use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
@@ -34,6 +34,7 @@ use wardcast_engine::{ColumnData, Table};
 use wardcast_report::brief::DatasetChecksum;
 use wardcast_store::{DeriveSummary, Draft, ImportOptions};
 
+use super::forms::{self, FormReading};
 use super::pages::{Layout, render};
 use super::state::{Analysis, AnalysisParts, Glossary, Source, valid_id};
 use super::{Ctx, blocking, see_other_to};
@@ -933,6 +934,10 @@ async fn upload_form(State(ctx): State<Ctx>, multipart: Multipart) -> Result<Res
 /// The fields of a urlencoded form, in order (repeated names allowed).
 type Fields = Vec<(String, String)>;
 
+/// How the column, join, derive and analysis forms of a table are read.
+const TABLE_FORM: FormReading =
+    FormReading::plain("The form could not be read. Send it again from the page.");
+
 fn field<'a>(fields: &'a Fields, name: &str) -> &'a str {
     fields.iter().find(|(k, _)| k == name).map_or("", |(_, v)| v.trim())
 }
@@ -964,11 +969,8 @@ fn meta_from_form(fields: &Fields) -> Result<ColumnMeta> {
     })
 }
 
-async fn columns_form(
-    State(ctx): State<Ctx>,
-    Path(t): Path<String>,
-    Form(fields): Form<Fields>,
-) -> Result<Response> {
+async fn columns_form(State(ctx): State<Ctx>, Path(t): Path<String>, request: Request) -> Result<Response> {
+    let fields = forms::read(request, TABLE_FORM).await?;
     find(&ctx, &t)?;
     let meta = meta_from_form(&fields)?;
     let outcome = set_meta(&ctx, &t, meta).await;
@@ -988,11 +990,8 @@ fn join_kind(text: &str) -> Result<JoinKind> {
     }
 }
 
-async fn join_form(
-    State(ctx): State<Ctx>,
-    Path(t): Path<String>,
-    Form(fields): Form<Fields>,
-) -> Result<Response> {
+async fn join_form(State(ctx): State<Ctx>, Path(t): Path<String>, request: Request) -> Result<Response> {
+    let fields = forms::read(request, TABLE_FORM).await?;
     find(&ctx, &t)?;
     let kind = join_kind(field(&fields, "kind"))?;
     let outcome = join(&ctx, &t, field(&fields, "with"), kind).await;
@@ -1038,22 +1037,16 @@ fn derived_from_form(fields: &Fields) -> Result<DerivedColumn> {
     Ok(DerivedColumn { name, derivation, meta })
 }
 
-async fn derive_form(
-    State(ctx): State<Ctx>,
-    Path(t): Path<String>,
-    Form(fields): Form<Fields>,
-) -> Result<Response> {
+async fn derive_form(State(ctx): State<Ctx>, Path(t): Path<String>, request: Request) -> Result<Response> {
+    let fields = forms::read(request, TABLE_FORM).await?;
     find(&ctx, &t)?;
     let spec = derived_from_form(&fields)?;
     let outcome = derive(&ctx, &t, spec).await;
     after_form(&ctx, &t, outcome, |table| format!("/tables/{}#columns", table.id)).await
 }
 
-async fn analysis_form(
-    State(ctx): State<Ctx>,
-    Path(t): Path<String>,
-    Form(fields): Form<Fields>,
-) -> Result<Response> {
+async fn analysis_form(State(ctx): State<Ctx>, Path(t): Path<String>, request: Request) -> Result<Response> {
+    let fields = forms::read(request, TABLE_FORM).await?;
     find(&ctx, &t)?;
     let predictors: Vec<&str> =
         fields.iter().filter(|(k, v)| k == "predictor" && !v.is_empty()).map(|(_, v)| v.as_str()).collect();

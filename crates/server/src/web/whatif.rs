@@ -27,8 +27,8 @@ use askama::Template;
 use axum::Json;
 use axum::Router;
 use axum::body::Body;
-use axum::extract::rejection::{FormRejection, QueryRejection};
-use axum::extract::{Form, Path, Query, State};
+use axum::extract::rejection::QueryRejection;
+use axum::extract::{Path, Query, Request, State};
 use axum::http::StatusCode;
 use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
@@ -40,8 +40,10 @@ use wardcast_contract::scenario::{
 };
 use wardcast_report::brief::ScenarioView as BriefScenario;
 use wardcast_report::brief::text::{NEGATIVE_PREDICTION, any_negative};
+use wardcast_report::svg::text::group_digits;
 use wardcast_report::svg::{Axis, Chart, EffectPlot, EffectRow as PlotRow};
 
+use super::forms::{self, FormReading};
 use super::pages::{Layout, Section, render};
 use super::state::{Analysis, KEPT_SCENARIOS_MAX};
 use super::words::{fmt_level, fmt_num, fmt_plain, in_sentence};
@@ -107,30 +109,19 @@ impl Figure {
 
     /// A whole amount with thousands separators.
     fn amount(x: u64) -> Self {
-        Figure { text: group(&x.to_string()), raw: x.to_string() }
+        Figure { text: group_digits(&x.to_string()), raw: x.to_string() }
     }
 
     /// A signed whole amount with thousands separators and a plain minus.
     fn signed(x: i64) -> Self {
-        let digits = group(&x.unsigned_abs().to_string());
+        let digits = group_digits(&x.unsigned_abs().to_string());
         Figure { text: if x < 0 { format!("−{digits}") } else { format!("+{digits}") }, raw: x.to_string() }
     }
 }
 
 fn group_signed(x: i64) -> String {
-    let digits = group(&x.unsigned_abs().to_string());
+    let digits = group_digits(&x.unsigned_abs().to_string());
     if x < 0 { format!("−{digits}") } else { digits }
-}
-
-fn group(digits: &str) -> String {
-    let mut out = String::with_capacity(digits.len() + digits.len() / 3);
-    for (i, c) in digits.chars().enumerate() {
-        if i > 0 && (digits.len() - i).is_multiple_of(3) {
-            out.push(',');
-        }
-        out.push(c);
-    }
-    out
 }
 
 /// A choice in a select.
@@ -800,9 +791,9 @@ fn allocation_view(doc: &AllocationDocument) -> AllocationView {
     let currency = allocation::currency_of(doc);
     let money = |x: u64| {
         if currency.is_empty() {
-            group(&x.to_string())
+            group_digits(&x.to_string())
         } else {
-            format!("{currency} {}", group(&x.to_string()))
+            format!("{currency} {}", group_digits(&x.to_string()))
         }
     };
     let mut settings =
@@ -1091,11 +1082,10 @@ async fn run_and_store(
 pub async fn allocate_form(
     State(ctx): State<Ctx>,
     Path(id): Path<String>,
-    form: std::result::Result<Form<Vec<(String, String)>>, FormRejection>,
+    request: Request,
 ) -> Result<Response> {
     let analysis = ctx.analysis(&id)?;
-    let Form(pairs) =
-        form.map_err(|_| ServerError::BadRequest("The allocation form could not be read.".into()))?;
+    let pairs = forms::read(request, FormReading::plain("The allocation form could not be read.")).await?;
     let request = parse_allocation_form(pairs)?;
     run_and_store(analysis.clone(), request).await?;
     Ok(see_other_to(&format!("/analyses/{}/what-if?allocation=latest#allocation", analysis.id())))
@@ -1273,14 +1263,9 @@ fn encode(text: &str) -> String {
 /// settings as in the page's query (`area` and `x.<column>` for one area; `shift_column`,
 /// `shift_op` and `shift_amount` for every area). The scenario is recomputed here and kept for
 /// the brief; the answer leads back to the page with the same settings.
-pub async fn keep_form(
-    State(ctx): State<Ctx>,
-    Path(id): Path<String>,
-    form: std::result::Result<Form<Vec<(String, String)>>, FormRejection>,
-) -> Result<Response> {
+pub async fn keep_form(State(ctx): State<Ctx>, Path(id): Path<String>, request: Request) -> Result<Response> {
     let analysis = ctx.analysis(&id)?;
-    let Form(pairs) =
-        form.map_err(|_| ServerError::BadRequest("The scenario form could not be read.".into()))?;
+    let pairs = forms::read(request, FormReading::plain("The scenario form could not be read.")).await?;
     let part = pairs.iter().find(|(k, _)| k == "part").map(|(_, v)| v.clone()).unwrap_or_default();
     let back: Vec<String> = pairs
         .iter()
@@ -1313,11 +1298,10 @@ pub async fn keep_form(
 pub async fn forget_form(
     State(ctx): State<Ctx>,
     Path(id): Path<String>,
-    form: std::result::Result<Form<Vec<(String, String)>>, FormRejection>,
+    request: Request,
 ) -> Result<Response> {
     let analysis = ctx.analysis(&id)?;
-    let Form(pairs) =
-        form.map_err(|_| ServerError::BadRequest("The remove form could not be read.".into()))?;
+    let pairs = forms::read(request, FormReading::plain("The remove form could not be read.")).await?;
     let text = pairs.iter().find(|(k, _)| k == "index").map(|(_, v)| v.trim().to_owned()).unwrap_or_default();
     let index: usize = text.parse().map_err(|_| {
         ServerError::BadRequest(format!("{text:?} does not name a kept scenario: give its number, from 0."))

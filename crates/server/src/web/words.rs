@@ -82,13 +82,7 @@ fn group_thousands(text: &str) -> String {
         Some((i, f)) => (i, Some(f)),
         None => (rest, None),
     };
-    let mut grouped = String::new();
-    for (k, c) in int.chars().enumerate() {
-        if k > 0 && (int.len() - k) % 3 == 0 {
-            grouped.push(',');
-        }
-        grouped.push(c);
-    }
+    let grouped = wardcast_report::svg::text::group_digits(int);
     match frac {
         Some(f) => format!("{sign}{grouped}.{f}"),
         None => format!("{sign}{grouped}"),

@@ -11,7 +11,7 @@ use wardcast_contract::checks::Outcome;
 use wardcast_engine::{Fit, FitOptions, Matrix};
 
 use super::survey::{data_values, fetch, json, nasty_state};
-use crate::{NASTY, NASTY_ESCAPED, PORT, local_app};
+use crate::{NASTY, NASTY_ESCAPED, PORT, escape_html, local_app};
 
 /// The demo workspace served locally.
 fn demo_app() -> Router {
@@ -28,15 +28,6 @@ fn page_keys(html: &str) -> Vec<String> {
             Some(chunk[start..end].to_owned())
         })
         .collect()
-}
-
-/// Escapes text the way the templates do.
-fn escape(text: &str) -> String {
-    text.replace('&', "&#38;")
-        .replace('<', "&#60;")
-        .replace('>', "&#62;")
-        .replace('"', "&#34;")
-        .replace('\'', "&#39;")
 }
 
 /// The page's numbers for one area: field → value.
@@ -221,7 +212,7 @@ async fn the_page_shows_the_json_numbers_and_says_what_chance_gives() {
         assert!(html[start..end].contains(reading), "{key}: {reading}");
         let name = row["name"].as_str().expect("demo names");
         assert!(
-            html[start..end].contains(&format!("<td class=\"name\">{}</td>", escape(name))),
+            html[start..end].contains(&format!("<td class=\"name\">{}</td>", escape_html(name))),
             "{key}: name"
         );
     }

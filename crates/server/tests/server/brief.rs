@@ -7,7 +7,7 @@ use std::sync::Arc;
 
 use axum::Router;
 use axum::body::Body;
-use axum::http::{Method, Request, StatusCode, header};
+use axum::http::{Request, StatusCode, header};
 use http_body_util::BodyExt;
 use wardcast::cli::allocation::{self, AllocationColumns};
 use wardcast::security::SecurityConfig;
@@ -20,9 +20,8 @@ use wardcast_engine::allocation::{AllocationOptions, Basis, BudgetRow, Simulatio
 use wardcast_engine::{ColumnData, Table};
 use wardcast_report::brief::Limitations;
 
-use crate::{HOST, NASTY, PORT, get, header_of, send, text};
+use crate::{HOST, NASTY, ORIGIN, PORT, encode, get, header_of, post, post_json, send, text};
 
-const ORIGIN: &str = "http://127.0.0.1:7878";
 const QUESTION: &str =
     "Which district conditions go with higher assault rates, for next year's prevention budget?";
 const AUTHOR: &str = "R. Analyst";
@@ -33,24 +32,17 @@ fn demo_app() -> (AppState, Router) {
 }
 
 fn post_form(path: &str, body: &str) -> Request<Body> {
-    Request::builder()
-        .method(Method::POST)
-        .uri(path)
-        .header(header::HOST, HOST)
-        .header(header::ORIGIN, ORIGIN)
-        .header(header::CONTENT_TYPE, "application/x-www-form-urlencoded")
-        .body(Body::from(body.to_owned()))
-        .expect("request")
+    post(path, "application/x-www-form-urlencoded", body.to_owned())
 }
 
-fn encode(s: &str) -> String {
-    s.bytes()
-        .map(|b| match b {
-            b'A'..=b'Z' | b'a'..=b'z' | b'0'..=b'9' | b'-' | b'.' | b'_' => (b as char).to_string(),
-            b' ' => "+".to_owned(),
-            _ => format!("%{b:02X}"),
-        })
-        .collect()
+/// The table called `name` of a brief's JSON document.
+fn brief_table<'a>(brief: &'a serde_json::Value, name: &str) -> &'a serde_json::Value {
+    brief["tables"]
+        .as_array()
+        .expect("tables")
+        .iter()
+        .find(|t| t["name"] == name)
+        .unwrap_or_else(|| panic!("the brief has a {name} table"))
 }
 
 async fn set_details(app: &Router, id: &str, question: &str, author: &str) {
@@ -191,12 +183,7 @@ async fn the_json_brief_matches_the_fit_and_carries_the_question() {
     );
     assert_eq!(doc["cautions"].as_array().map(Vec::len), Some(Limitations::REQUIRED.len()));
     let analysis = state.get(DEMO_ID).expect("lock").expect("demo");
-    let coefficients = doc["tables"]
-        .as_array()
-        .expect("tables")
-        .iter()
-        .find(|t| t["name"] == "coefficients")
-        .expect("coefficient table");
+    let coefficients = brief_table(&doc, "coefficients");
     for (row, c) in coefficients["rows"].as_array().expect("rows").iter().zip(&analysis.fit().coefficients) {
         assert_eq!(row[0], c.term.as_str());
         assert_eq!(row[1].as_f64(), Some(c.estimate), "{}", c.term);
@@ -388,12 +375,7 @@ async fn an_allocation_run_on_the_analysis_reaches_the_brief_with_amounts_summin
     let api: serde_json::Value =
         serde_json::from_str(&text(send(&app, get("/api/analyses/larkmoor/brief")).await).await)
             .expect("json");
-    let table = api["tables"]
-        .as_array()
-        .expect("tables")
-        .iter()
-        .find(|t| t["name"] == "allocation")
-        .expect("allocation");
+    let table = brief_table(&api, "allocation");
     let at = table["columns"]
         .as_array()
         .expect("columns")
@@ -657,17 +639,6 @@ fn the_demo_brief_from_the_command_line_equals_the_web_download() {
     assert_eq!(cli, web, "the command line and the web app write the same tables");
 }
 
-fn post_json(path: &str, body: &serde_json::Value) -> Request<Body> {
-    Request::builder()
-        .method(Method::POST)
-        .uri(path)
-        .header(header::HOST, HOST)
-        .header(header::ORIGIN, ORIGIN)
-        .header(header::CONTENT_TYPE, "application/json")
-        .body(Body::from(body.to_string()))
-        .expect("request")
-}
-
 fn f(v: &serde_json::Value) -> f64 {
     v.as_f64().unwrap_or_else(|| panic!("{v} is not a number"))
 }
@@ -718,12 +689,7 @@ async fn kept_scenarios_reach_the_brief_with_the_documents_numbers_and_leave_it_
     let brief: serde_json::Value =
         serde_json::from_str(&text(send(&app, get(&format!("/api/analyses/{DEMO_ID}/brief"))).await).await)
             .expect("JSON");
-    let table = brief["tables"]
-        .as_array()
-        .expect("tables")
-        .iter()
-        .find(|t| t["name"] == "scenarios")
-        .expect("a scenario table");
+    let table = brief_table(&brief, "scenarios");
     let rows = table["rows"].as_array().expect("rows");
     assert_eq!(rows.len(), 2);
     assert!(rows[0][0].as_str().expect("text").starts_with("LK-20 with unemployment 9.5 instead of"));
@@ -763,8 +729,7 @@ async fn kept_scenarios_reach_the_brief_with_the_documents_numbers_and_leave_it_
     let brief: serde_json::Value =
         serde_json::from_str(&text(send(&app, get(&format!("/api/analyses/{DEMO_ID}/brief"))).await).await)
             .expect("JSON");
-    let table =
-        brief["tables"].as_array().expect("tables").iter().find(|t| t["name"] == "scenarios").expect("table");
+    let table = brief_table(&brief, "scenarios");
     assert_eq!(table["rows"].as_array().expect("rows").len(), 1);
     let response = send(&app, post_form(&format!("/analyses/{DEMO_ID}/what-if/forget"), "index=0")).await;
     assert_eq!(response.status(), StatusCode::SEE_OTHER);

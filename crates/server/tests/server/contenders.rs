@@ -7,7 +7,7 @@ use std::time::Duration;
 
 use axum::Router;
 use axum::body::Body;
-use axum::http::{Request, StatusCode, header};
+use axum::http::{Request, StatusCode};
 use wardcast::security::SecurityConfig;
 use wardcast::web::{Analysis, AnalysisParts, AppState, Glossary, Source, router};
 use wardcast_contract::spec::ModelSpec;
@@ -17,7 +17,7 @@ use wardcast_engine::selection::{
 };
 use wardcast_engine::{Column, Design, QrOptions, Table};
 
-use crate::{HOST, NASTY, NASTY_ESCAPED, PORT, get, header_of, sample_analysis, send, text};
+use crate::{NASTY, NASTY_ESCAPED, PORT, get, header_of, post, post_json, sample_analysis, send, text};
 
 /// The demo's candidate columns used in these tests (the demo model's five plus two more).
 const DEMO_CANDIDATES: [&str; 7] = [
@@ -65,21 +65,6 @@ pub fn noise_app() -> Router {
     let state = AppState::new();
     state.insert(analysis).expect("insert");
     router(state, SecurityConfig::local(PORT))
-}
-
-/// A same-origin POST with a body of the given content type.
-pub fn post(path: &str, content_type: &str, body: impl Into<String>) -> Request<Body> {
-    Request::post(path)
-        .header(header::HOST, HOST)
-        .header(header::ORIGIN, format!("http://{HOST}"))
-        .header(header::CONTENT_TYPE, content_type)
-        .body(Body::from(body.into()))
-        .expect("request")
-}
-
-/// A same-origin JSON POST.
-pub fn post_json(path: &str, body: &serde_json::Value) -> Request<Body> {
-    post(path, "application/json", body.to_string())
 }
 
 /// Sends a request and reads the JSON answer, checking the status.

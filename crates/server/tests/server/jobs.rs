@@ -3,8 +3,8 @@
 
 use axum::http::StatusCode;
 
-use super::contenders::{demo_app, noise_app, post, start, wait};
-use crate::{get, header_of, send, text};
+use super::contenders::{demo_app, noise_app, start, wait};
+use crate::{get, header_of, post, send, text};
 
 #[tokio::test]
 async fn malformed_job_ids_are_bad_requests_and_unknown_ones_are_not_found() {

@@ -6,7 +6,10 @@ use wardcast::security::SecurityConfig;
 use wardcast::web::{Analysis, AnalysisParts, AppState, ColumnInfo, Glossary, Source, router};
 use wardcast_contract::cautions::standing_cautions;
 
-use crate::{NASTY, NASTY_ESCAPED, PORT, get, header_of, local_app, sample_analysis, sample_fit, send, text};
+use crate::{
+    NASTY, NASTY_ESCAPED, PORT, data_numbers, get, header_of, local_app, sample_analysis, sample_fit, send,
+    text,
+};
 
 /// Fetches a page and checks its status; returns the body.
 async fn page(app: &axum::Router, path: &str, expected: StatusCode) -> String {
@@ -140,20 +143,10 @@ async fn the_effects_page_snapshot() {
     insta::assert_snapshot!("effects_page", html);
 }
 
-/// Every `<data value="…">` on a page, in order.
-fn data_values(html: &str) -> Vec<f64> {
-    html.split("<data value=\"")
-        .skip(1)
-        .filter_map(|rest| rest.split('"').next())
-        .filter(|v| !v.is_empty())
-        .map(|v| v.parse::<f64>().expect("a number in data value"))
-        .collect()
-}
-
 /// Checks that the page's coefficient table shows every coefficient of `doc` with full
 /// precision: per term, the estimate, standard error, t and the interval, in that order.
 fn assert_page_shows(html: &str, doc: &wardcast_contract::fit::FitDocument) {
-    let values = data_values(html);
+    let values = data_numbers(html);
     for c in &doc.coefficients {
         let t = c.t_value.as_f64().expect("t defined");
         let row = [c.estimate, c.std_error, t, c.interval.low, c.interval.high];

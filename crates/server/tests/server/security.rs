@@ -9,22 +9,12 @@ use http_body_util::channel::Channel;
 use wardcast::security::{CONTENT_SECURITY_POLICY, Limits, SESSION_COOKIE, SecurityConfig, Token};
 use wardcast::web::router;
 
-use crate::{HOST, LAN, PORT, get, header_of, local_app, sample_state, send, shared_app, test_token, text};
+use crate::{
+    HOST, LAN, PORT, check, get, header_of, local_app, sample_state, send, shared_app, test_token, text,
+};
 
 /// The LAN Host header in sharing tests.
 const LAN_HOST: &str = "192.0.2.10:7878";
-
-/// Sends `request` to `app` and checks the status; returns the response for further checks.
-async fn check(
-    app: &axum::Router,
-    request: Request<Body>,
-    expected: StatusCode,
-    why: &str,
-) -> axum::http::Response<Body> {
-    let response = send(app, request).await;
-    assert_eq!(response.status(), expected, "{why}");
-    response
-}
 
 fn with_host(method: Method, path: &str, host: Option<&str>) -> Request<Body> {
     let mut b = Request::builder().method(method).uri(path);

@@ -3,7 +3,7 @@
 
 use axum::Router;
 use axum::body::Body;
-use axum::http::{Method, Request, Response, StatusCode, header};
+use axum::http::{Method, Request, StatusCode, header};
 use wardcast::security::SecurityConfig;
 use wardcast::web::demo::{DEMO_ID, demo_source, demo_spec, demo_state, demo_state_in_store};
 use wardcast::web::{AppState, router};
@@ -11,33 +11,10 @@ use wardcast_contract::dataset::SavedAnalysis;
 use wardcast_contract::fit::FitDocument;
 use wardcast_contract::spec::{ExclusionSpec, ModelSpec, TransformSpec};
 
-use crate::{HOST, NASTY, NASTY_ESCAPED, PORT, header_of, sample_analysis, send, text};
-
-const ORIGIN: &str = "http://127.0.0.1:7878";
-
-/// Percent-encodes one form component.
-fn enc(s: &str) -> String {
-    s.bytes()
-        .map(|b| match b {
-            b'A'..=b'Z' | b'a'..=b'z' | b'0'..=b'9' | b'-' | b'_' | b'.' => (b as char).to_string(),
-            b' ' => "+".to_owned(),
-            b => format!("%{b:02X}"),
-        })
-        .collect()
-}
+use crate::{HOST, NASTY, NASTY_ESCAPED, PORT, check, encode, header_of, post, sample_analysis, text};
 
 fn form(fields: &[(&str, &str)]) -> String {
-    fields.iter().map(|(k, v)| format!("{}={}", enc(k), enc(v))).collect::<Vec<_>>().join("&")
-}
-
-/// A same-origin POST with a body of the given content type.
-fn post(path: &str, content_type: &str, body: String) -> Request<Body> {
-    Request::post(path)
-        .header(header::HOST, HOST)
-        .header(header::ORIGIN, ORIGIN)
-        .header(header::CONTENT_TYPE, content_type)
-        .body(Body::from(body))
-        .expect("request")
+    fields.iter().map(|(k, v)| format!("{}={}", encode(k), encode(v))).collect::<Vec<_>>().join("&")
 }
 
 fn post_form(path: &str, fields: &[(&str, &str)]) -> Request<Body> {
@@ -50,13 +27,6 @@ fn post_json(path: &str, body: serde_json::Value) -> Request<Body> {
 
 fn get(path: &str) -> Request<Body> {
     crate::get(path)
-}
-
-/// Sends a request and checks its status, returning the response.
-async fn check(app: &Router, request: Request<Body>, status: StatusCode, what: &str) -> Response<Body> {
-    let response = send(app, request).await;
-    assert_eq!(response.status(), status, "{what}");
-    response
 }
 
 fn demo_app() -> (Router, AppState) {
@@ -411,13 +381,13 @@ async fn bad_requests_are_refused_with_a_plain_message() {
             "the engine refuses an empty model",
         ),
         (
-            post("/analyses/larkmoor/refit", "application/json", "{}".into()),
+            post("/analyses/larkmoor/refit", "application/json", "{}".to_owned()),
             StatusCode::BAD_REQUEST,
             "takes a form",
             "non-form body",
         ),
         (
-            post("/analyses/larkmoor/exclude", "text/plain", "key=LK-47&reason=x".into()),
+            post("/analyses/larkmoor/exclude", "text/plain", "key=LK-47&reason=x".to_owned()),
             StatusCode::BAD_REQUEST,
             "takes a form",
             "plain-text body",
@@ -426,7 +396,7 @@ async fn bad_requests_are_refused_with_a_plain_message() {
             post(
                 "/analyses/larkmoor/exclude",
                 "application/x-www-form-urlencoded",
-                "key=%zz&reason=x".into(),
+                "key=%zz&reason=x".to_owned(),
             ),
             StatusCode::BAD_REQUEST,
             "could not be read",
@@ -436,7 +406,7 @@ async fn bad_requests_are_refused_with_a_plain_message() {
             post(
                 "/analyses/larkmoor/exclude",
                 "application/x-www-form-urlencoded",
-                "key=%FF&reason=x".into(),
+                "key=%FF&reason=x".to_owned(),
             ),
             StatusCode::BAD_REQUEST,
             "could not be read",
@@ -470,13 +440,13 @@ async fn bad_requests_are_refused_with_a_plain_message() {
             "JSON: empty reason",
         ),
         (
-            post("/api/analyses/larkmoor/refit", "application/json", "{not json".into()),
+            post("/api/analyses/larkmoor/refit", "application/json", "{not json".to_owned()),
             StatusCode::BAD_REQUEST,
             "could not be read",
             "JSON: malformed",
         ),
         (
-            post("/api/analyses/larkmoor/refit", "application/x-www-form-urlencoded", "a=b".into()),
+            post("/api/analyses/larkmoor/refit", "application/x-www-form-urlencoded", "a=b".to_owned()),
             StatusCode::BAD_REQUEST,
             "JSON body",
             "JSON: wrong type",

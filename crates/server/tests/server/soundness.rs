@@ -15,7 +15,8 @@ use wardcast_contract::spec::ExclusionSpec;
 use wardcast_engine::Table;
 
 use crate::{
-    NASTY, NASTY_ESCAPED, PORT, get, header_of, local_app, sample_glossary, sample_spec, send, text,
+    NASTY, NASTY_ESCAPED, PORT, data_numbers, escape_html, get, header_of, local_app, post, sample_glossary,
+    sample_spec, send, text,
 };
 
 /// The demo workspace served locally.
@@ -48,16 +49,6 @@ async fn check(app: &Router, path: &str, status: StatusCode, needle: &str) -> St
         assert_eq!(v["status"], status.as_u16(), "GET {path}");
     }
     body
-}
-
-/// Every `<data value="…">` on a page, in order.
-fn data_values(html: &str) -> Vec<f64> {
-    html.split("<data value=\"")
-        .skip(1)
-        .filter_map(|rest| rest.split('"').next())
-        .filter(|v| !v.is_empty())
-        .map(|v| v.parse::<f64>().expect("a number in data value"))
-        .collect()
 }
 
 /// Whether the page shows `x` in a `<data value>` within 1e-12 (relative to its size, at least 1).
@@ -153,16 +144,16 @@ async fn the_page_shows_the_numbers_of_the_checks_document() {
     let html =
         check(&app, &format!("/analyses/{DEMO_ID}/soundness"), StatusCode::OK, "The verdicts in brief").await;
     let doc = demo_checks();
-    let values = data_values(&html);
+    let values = data_numbers(&html);
 
     // Shapiro-Wilk W and p, beside the quantile chart.
     let Outcome::Ok { result: sw } = &doc.normality.shapiro_wilk else { panic!("Shapiro-Wilk computed") };
-    let shapiro = data_values(between(&html, "<p class=\"shapiro\">", "</p>"));
+    let shapiro = data_numbers(between(&html, "<p class=\"shapiro\">", "</p>"));
     assert_eq!(shapiro, vec![sw.w, sw.p_value], "Shapiro-Wilk W and p exactly");
 
     // Every VIF and its R², in the VIF table.
     let Outcome::Ok { result: vif } = &doc.collinearity.vif else { panic!("VIFs computed") };
-    let table = data_values(between(&html, "<table class=\"numbers vif\">", "</table>"));
+    let table = data_numbers(between(&html, "<table class=\"numbers vif\">", "</table>"));
     let expected: Vec<f64> =
         vif.entries.iter().flat_map(|e| [e.vif.as_f64().expect("finite VIF"), e.r_squared]).collect();
     assert_eq!(table, expected, "the VIF table in document order");
@@ -171,7 +162,7 @@ async fn the_page_shows_the_numbers_of_the_checks_document() {
     let Outcome::Ok { result: inf } = &doc.influence else { panic!("influence computed") };
     let lk47 = inf.rows.iter().find(|r| r.key == "LK-47").expect("LK-47 is a row");
     assert!(lk47.flagged && inf.flagged.contains(&"LK-47".to_owned()));
-    let row = data_values(between(&html, "<th scope=\"row\">LK-47</th>", "</tr>"));
+    let row = data_numbers(between(&html, "<th scope=\"row\">LK-47</th>", "</tr>"));
     let cooks = lk47.cooks_d.as_f64().expect("Cook's D");
     assert_eq!(row[0], lk47.hat, "leverage of LK-47");
     assert_eq!(row[1], cooks, "Cook's distance of LK-47");
@@ -203,7 +194,7 @@ async fn the_page_shows_the_numbers_of_the_checks_document() {
 
     // Every verdict of the summary is on the page with its statistic and p-value.
     for nv in &doc.summary {
-        assert!(html.contains(&askama_escape(&nv.verdict.meaning)), "the sentence of {}", nv.check);
+        assert!(html.contains(&escape_html(&nv.verdict.meaning)), "the sentence of {}", nv.check);
         if let Some(s) = nv.verdict.statistic.as_f64() {
             assert_shows(&values, s, &format!("the statistic of {}", nv.check));
         }
@@ -241,15 +232,6 @@ async fn the_page_shows_the_numbers_of_the_checks_document() {
     assert!(!html.contains("<script") && !html.contains("style=") && !html.contains("<style"));
 }
 
-/// Escapes like the templates do, for finding user-free engine sentences in a page.
-fn askama_escape(s: &str) -> String {
-    s.replace('&', "&#38;")
-        .replace('<', "&#60;")
-        .replace('>', "&#62;")
-        .replace('"', "&#34;")
-        .replace('\'', "&#39;")
-}
-
 /// The demo fit without LK-47, computed independently: the spec excludes the row.
 fn independent_refit() -> FitDocument {
     let table = wardcast::demo::larkmoor_table().expect("demo table");
@@ -278,14 +260,14 @@ async fn the_comparison_without_lk47_equals_an_independent_refit() {
     assert!(html.contains("Read before deciding"), "the cautions panel is on the comparison page");
     for (c, d) in original.coefficients.iter().zip(&refit.coefficients) {
         assert_eq!(c.term, d.term);
-        let row = data_values(between(&html, &format!("<th scope=\"row\">{}</th>", c.term), "</tr>"));
+        let row = data_numbers(between(&html, &format!("<th scope=\"row\">{}</th>", c.term), "</tr>"));
         let want = [c.estimate, c.interval.low, c.interval.high, d.estimate, d.interval.low, d.interval.high];
         for (i, (got, want)) in row.iter().zip(want).enumerate() {
             assert!(close(*got, want), "{} column {i}: {got} vs {want}", c.term);
         }
         assert!(close(row[6], d.estimate - c.estimate), "{}: the change", c.term);
     }
-    let stats = data_values(between(&html, "<h2>Fit side by side</h2>", "</table>"));
+    let stats = data_numbers(between(&html, "<h2>Fit side by side</h2>", "</table>"));
     let want = [
         original.rows_used as f64,
         refit.rows_used as f64,
@@ -380,7 +362,7 @@ async fn the_effects_page_shows_the_hc3_errors_of_the_checks_document() {
     for (r, c) in robust.coefficients.iter().zip(&fit_doc.coefficients) {
         assert_eq!(r.term, c.term);
         // Each coefficient row: estimate, SE, t, interval, then HC3 SE and HC3 interval.
-        let row = data_values(between(&html, &format!("<tr><th scope=\"row\">{}</th>", c.term), "</tr>"));
+        let row = data_numbers(between(&html, &format!("<tr><th scope=\"row\">{}</th>", c.term), "</tr>"));
         assert_eq!(row.len(), 8, "{}: eight figures", c.term);
         assert_eq!(row[5], r.hc3, "{}: HC3 exactly as the checks document", c.term);
         assert!(close(row[6], c.estimate - q * r.hc3) && close(row[7], c.estimate + q * r.hc3), "{}", c.term);
@@ -392,16 +374,6 @@ async fn the_effects_page_shows_the_hc3_errors_of_the_checks_document() {
 
 // ---------------------------------------------------------------------------------------------
 // The transformation search run again as a background job.
-
-/// A same-origin POST with a body of the given content type.
-fn post(path: &str, content_type: &str, body: impl Into<String>) -> axum::http::Request<axum::body::Body> {
-    axum::http::Request::post(path)
-        .header(axum::http::header::HOST, crate::HOST)
-        .header(axum::http::header::ORIGIN, format!("http://{}", crate::HOST))
-        .header(axum::http::header::CONTENT_TYPE, content_type)
-        .body(axum::body::Body::from(body.into()))
-        .expect("request")
-}
 
 /// Sends a request and reads its JSON answer, checking the status.
 async fn json_of(
@@ -516,7 +488,7 @@ async fn a_transform_job_equals_the_engine_search_and_its_seed_reproduces() {
     // the reminder that the model is not swapped.
     let page = format!("/analyses/{DEMO_ID}/soundness/transform?job={first}");
     let html = check(&app, &page, StatusCode::OK, "never swaps the model").await;
-    let values = data_values(between(&html, "id=\"search-result\"", "</section>"));
+    let values = data_numbers(between(&html, "id=\"search-result\"", "</section>"));
     for c in candidates {
         let label = c["label"].as_str().expect("label");
         assert!(html.contains(label), "the page lists {label}");

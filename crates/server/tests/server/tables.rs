@@ -9,9 +9,8 @@ use wardcast::security::{Limits, SecurityConfig};
 use wardcast::web::{AppState, router};
 use wardcast_engine::ColumnData;
 
-use crate::{HOST, NASTY, NASTY_ESCAPED, PORT, get, header_of, send, text};
+use crate::{HOST, NASTY, NASTY_ESCAPED, PORT, check, encode, get, header_of, post, post_json, send, text};
 
-const ORIGIN: &str = "http://127.0.0.1:7878";
 const BOUNDARY: &str = "wardcast-test-boundary";
 
 /// One part of a multipart form: field name, file name (for a file part) and content.
@@ -40,16 +39,6 @@ fn multipart_body(parts: &[Part<'_>]) -> Vec<u8> {
     body
 }
 
-/// A same-origin POST with a body of the given type.
-fn post(path: &str, content_type: &str, body: impl Into<Body>) -> Request<Body> {
-    Request::post(path)
-        .header(header::HOST, HOST)
-        .header(header::ORIGIN, ORIGIN)
-        .header(header::CONTENT_TYPE, content_type)
-        .body(body.into())
-        .expect("request")
-}
-
 fn upload(path: &str, parts: &[Part<'_>]) -> Request<Body> {
     post(path, &format!("multipart/form-data; boundary={BOUNDARY}"), multipart_body(parts))
 }
@@ -58,26 +47,6 @@ fn form(path: &str, fields: &[(&str, &str)]) -> Request<Body> {
     let body: String =
         fields.iter().map(|(k, v)| format!("{}={}", encode(k), encode(v))).collect::<Vec<_>>().join("&");
     post(path, "application/x-www-form-urlencoded", body)
-}
-
-fn encode(text: &str) -> String {
-    text.bytes()
-        .map(|b| match b {
-            b'A'..=b'Z' | b'a'..=b'z' | b'0'..=b'9' | b'-' | b'_' | b'.' => (b as char).to_string(),
-            _ => format!("%{b:02X}"),
-        })
-        .collect()
-}
-
-fn json_post(path: &str, body: &Value) -> Request<Body> {
-    post(path, "application/json", body.to_string())
-}
-
-/// Sends a request and checks its status, naming the case on failure.
-async fn check(app: &Router, request: Request<Body>, expected: StatusCode, case: &str) -> Response<Body> {
-    let response = send(app, request).await;
-    assert_eq!(response.status(), expected, "{case}");
-    response
 }
 
 async fn json_of(response: Response<Body>) -> Value {
@@ -249,7 +218,7 @@ async fn the_demo_tables_uploaded_joined_and_derived_fit_the_demo_model_exactly(
     let spec = wardcast::web::demo::demo_spec();
     let created = check(
         &app,
-        json_post(&format!("/api/tables/{joined}/analyses"), &json!({"name": "From uploads", "spec": spec})),
+        post_json(&format!("/api/tables/{joined}/analyses"), &json!({"name": "From uploads", "spec": spec})),
         StatusCode::CREATED,
         "start an analysis (JSON)",
     )
@@ -345,7 +314,7 @@ async fn confirming_saves_a_version_with_its_checksum_in_the_store() {
     let meta =
         json!({"column": "programme_budget", "label": "programme budget", "unit": "$", "role": "indicator"});
     let edited = json_of(
-        check(&app, json_post("/api/tables/budgets/columns", &meta), StatusCode::OK, "JSON metadata").await,
+        check(&app, post_json("/api/tables/budgets/columns", &meta), StatusCode::OK, "JSON metadata").await,
     )
     .await;
     assert_eq!(edited["confirmed"], Value::Null);
@@ -485,7 +454,7 @@ async fn every_bad_request_gets_a_plain_answer() {
             "rate per a word",
         ),
         bad(
-            json_post(&a("/derive"), &json!({"name": "x", "derivation": {"kind": "cube"}})),
+            post_json(&a("/derive"), &json!({"name": "x", "derivation": {"kind": "cube"}})),
             StatusCode::BAD_REQUEST,
             "JSON derive of an unknown kind",
         ),
@@ -502,12 +471,12 @@ async fn every_bad_request_gets_a_plain_answer() {
             "unknown join kind",
         ),
         bad(
-            json_post(&a("/join"), &json!({"with": joined})),
+            post_json(&a("/join"), &json!({"with": joined})),
             StatusCode::BAD_REQUEST,
             "JSON join with itself",
         ),
         bad(
-            json_post(&a("/join"), &json!({"with": budgets, "kind": "cross"})),
+            post_json(&a("/join"), &json!({"with": budgets, "kind": "cross"})),
             StatusCode::BAD_REQUEST,
             "JSON join of an unknown kind",
         ),
@@ -535,7 +504,7 @@ async fn every_bad_request_gets_a_plain_answer() {
             "unknown predictor",
         ),
         bad(
-            json_post(&a("/analyses"), &json!({"name": "x", "spec": {"response": "assault_rate_per_10k"}})),
+            post_json(&a("/analyses"), &json!({"name": "x", "spec": {"response": "assault_rate_per_10k"}})),
             StatusCode::BAD_REQUEST,
             "JSON spec without predictors",
         ),
@@ -569,7 +538,7 @@ async fn every_bad_request_gets_a_plain_answer() {
             "unknown column",
         ),
         bad(
-            json_post(&a("/columns"), &json!({"column": "residents"})),
+            post_json(&a("/columns"), &json!({"column": "residents"})),
             StatusCode::BAD_REQUEST,
             "JSON metadata without a role",
         ),

@@ -16,27 +16,15 @@ use wardcast_engine::allocation::{
 };
 use wardcast_engine::{ColumnData, Matrix, PredictorValue, Table};
 
-use crate::{HOST, NASTY, NASTY_ESCAPED, PORT, get, header_of, local_app, sample_analysis, send, text};
+use crate::{
+    HOST, NASTY, NASTY_ESCAPED, PORT, get, header_of, local_app, post, post_json, sample_analysis, send, text,
+};
 
 /// The columns of the sample model, in model order.
 const PREDICTORS: [&str; 4] = ["unemployment_pct", "vacancy_pct", "district_type", "streetlight_outages"];
 
-/// A same-origin POST with a body of the given type.
-fn post(path: &str, content_type: &str, body: impl Into<String>) -> Request<Body> {
-    Request::post(path)
-        .header(header::HOST, HOST)
-        .header(header::ORIGIN, format!("http://127.0.0.1:{PORT}"))
-        .header(header::CONTENT_TYPE, content_type)
-        .body(Body::from(body.into()))
-        .expect("request")
-}
-
-fn post_json(path: &str, body: &Value) -> Request<Body> {
-    post(path, "application/json", body.to_string())
-}
-
 fn post_form(path: &str, body: &str) -> Request<Body> {
-    post(path, "application/x-www-form-urlencoded", body)
+    post(path, "application/x-www-form-urlencoded", body.to_owned())
 }
 
 /// Sends a request and parses the JSON answer, asserting the status.

@@ -9,7 +9,7 @@ use std::collections::HashSet;
 use serde::{Deserialize, Serialize};
 use wardcast_contract::SCHEMA_VERSION;
 use wardcast_contract::selection::{DropOneDoc, ModelDoc, PartialFDoc, SelectionDocument, SelectionParts};
-use wardcast_contract::spec::{ModelSpec, PredictorSpec};
+use wardcast_contract::spec::ModelSpec;
 use wardcast_engine::selection::{
     Candidates, CvOptions, DropOneOptions, GroupColumn, MAX_CANDIDATES, SearchOptions, best_subsets,
     cross_validate, drop_one, partial_f_test, recommend,
@@ -144,23 +144,6 @@ pub fn group_columns(table: &Table) -> Vec<String> {
     table.columns().iter().filter(|c| !c.data.is_numeric()).map(|c| c.name.clone()).collect()
 }
 
-/// The analysis' spec with `columns` as its predictors; a column the model already uses keeps
-/// its transform and reference level.
-fn spec_with(spec: &ModelSpec, columns: &[String]) -> ModelSpec {
-    let mut full = spec.clone();
-    full.predictors = columns
-        .iter()
-        .map(|c| {
-            spec.predictors.iter().find(|p| &p.column == c).cloned().unwrap_or(PredictorSpec {
-                column: c.clone(),
-                transform: None,
-                reference_level: None,
-            })
-        })
-        .collect();
-    full
-}
-
 /// Checks that every name is a usable column, in the words of `what`.
 fn check_columns(analysis: &Analysis, names: &[String], what: &str) -> Result<()> {
     let offer = offerable_columns(analysis);
@@ -227,7 +210,7 @@ pub fn prepare(analysis: &Analysis, request: SearchRequest) -> Result<Prepared> 
         return Err(bad(format!("Cross-validation repeats must be between 1 and {MAX_REPEATS}.")));
     }
 
-    let spec = spec_with(analysis.spec(), &request.candidates);
+    let spec = analysis.spec().with_predictor_columns(&request.candidates);
     let engine_spec = spec.to_engine()?;
     let design = Design::build(analysis.table(), &engine_spec)?;
     let cands = Candidates::from_design(&design)?;
@@ -479,7 +462,7 @@ pub fn compare(
             return Err(bad(format!("{c:?} was not among the candidates of this search.")));
         }
     }
-    let spec = spec_with(analysis.spec(), &union);
+    let spec = analysis.spec().with_predictor_columns(&union);
     let design = Design::build(analysis.table(), &spec.to_engine()?)?;
     let cands = Candidates::from_design(&design)?;
     let idx =

@@ -39,13 +39,7 @@ fn draw(chart: &impl Chart, caption: String) -> Option<ChartView> {
 
 /// Points of the document as scatter points, labelled by key and flagged when in `flagged`.
 fn scatter_points(points: &[PointDoc], flagged: &[String]) -> Vec<ScatterPoint> {
-    points
-        .iter()
-        .map(|p| {
-            let point = ScatterPoint::new(p.x, p.y).labelled(p.key.clone());
-            if flagged.contains(&p.key) { point.flagged() } else { point }
-        })
-        .collect()
+    points.iter().map(|p| ScatterPoint::keyed(p.x, p.y, &p.key, flagged)).collect()
 }
 
 impl Charts<'_> {
@@ -101,20 +95,7 @@ impl Charts<'_> {
             x_axis: Axis::new("Standard normal quantile", ""),
             y_axis: Axis::new("Standardized residual", "standard deviations"),
             items: self.areas.to_owned(),
-            points: result
-                .points
-                .iter()
-                .map(|p| QqPoint {
-                    theoretical: p.x,
-                    sample: p.y,
-                    label: Some(p.key.clone()),
-                    emphasis: if flagged.contains(&p.key) {
-                        wardcast_report::svg::Emphasis::Flagged
-                    } else {
-                        wardcast_report::svg::Emphasis::Normal
-                    },
-                })
-                .collect(),
+            points: result.points.iter().map(|p| QqPoint::keyed(p.x, p.y, &p.key, flagged)).collect(),
             line: QqLine::Identity,
             labels: PointLabels::Flagged,
             flagged_meaning: "Flagged by an influence measure".into(),

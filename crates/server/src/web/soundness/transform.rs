@@ -11,8 +11,8 @@ use std::sync::Arc;
 use askama::Template;
 use axum::Json;
 use axum::body::Bytes;
-use axum::extract::rejection::{FormRejection, QueryRejection};
-use axum::extract::{Form, Path, Query, State};
+use axum::extract::rejection::QueryRejection;
+use axum::extract::{Path, Query, Request, State};
 use axum::http::{HeaderValue, StatusCode, header};
 use axum::response::{IntoResponse, Response};
 use serde::{Deserialize, Serialize};
@@ -22,7 +22,8 @@ use wardcast_engine::diagnostics::{self, CheckOptions, SearchControl};
 use super::{CandidateRow, candidate_rows};
 use crate::error::{ApiError, Result, ServerError};
 use crate::web::Ctx;
-use crate::web::jobs::{Job, JobSpec, JobState};
+use crate::web::forms::{self, FormReading};
+use crate::web::jobs::{self, Finished, Job, JobSpec};
 use crate::web::pages::{Layout, Section, render, section_href};
 use crate::web::state::Analysis;
 use crate::web::words::fmt_prose;
@@ -248,9 +249,10 @@ async fn start(ctx: &Ctx, id: &str, request: &TransformRequest) -> Result<Arc<Jo
 pub(super) async fn form_start(
     State(ctx): State<Ctx>,
     Path(id): Path<String>,
-    form: std::result::Result<Form<Vec<(String, String)>>, FormRejection>,
+    request: Request,
 ) -> Result<Response> {
-    let Form(pairs) = form.map_err(|_| bad("The search settings must be sent as a web form.".into()))?;
+    let pairs =
+        forms::read(request, FormReading::plain("The search settings must be sent as a web form.")).await?;
     let request = request_from_form(&pairs)?;
     let job = start(&ctx, &id, &request).await?;
     Ok(crate::web::see_other_to(&format!("/jobs/{}", job.id())))
@@ -338,35 +340,14 @@ impl TransformPage {
     }
 }
 
-/// A job's finished search, or why it has none to show.
-type Finished = std::result::Result<Arc<TransformResult>, String>;
-
 /// The job `job_id` of this analysis with its finished search, or the reason there is none.
-fn job_result(ctx: &Ctx, analysis: &Analysis, job_id: &str) -> Result<(Arc<Job>, Finished)> {
-    let valid =
-        job_id.len() <= 24 && job_id.starts_with('j') && job_id[1..].bytes().all(|b| b.is_ascii_digit());
-    if !valid {
-        return Err(bad("A job id is the letter j followed by digits.".into()));
-    }
-    let job = ctx
-        .app()
-        .jobs()
-        .get(job_id)?
-        .filter(|j| j.analysis() == analysis.id())
-        .ok_or_else(|| ServerError::NotFound(format!("This analysis has no job called {job_id:?}.")))?;
-    let outcome = match job.state() {
-        JobState::Running => {
-            Err("This search is still running; its progress page shows how far it has come.".into())
-        }
-        JobState::Cancelled => {
-            Err("This search was cancelled before it finished, so it has no result.".into())
-        }
-        JobState::Failed(e) => Err(format!("This search stopped: {e}")),
-        JobState::Done { .. } => job.result::<TransformResult>().ok_or_else(|| {
-            "This job is not a transformation search; its own page shows its result.".to_owned()
-        }),
-    };
-    Ok((job, outcome))
+fn job_result(ctx: &Ctx, analysis: &Analysis, job_id: &str) -> Result<(Arc<Job>, Finished<TransformResult>)> {
+    jobs::finished(
+        ctx,
+        analysis.id(),
+        job_id,
+        "This job is not a transformation search; its own page shows its result.",
+    )
 }
 
 /// `GET /analyses/{id}/soundness/transform?job=…`: the ranked table of a search job. Without a
