@@ -658,3 +658,71 @@ async fn a_browser_form_post_with_a_null_origin_is_accepted_only_when_same_origi
         .expect("request");
     check(&app, unvouched, StatusCode::FORBIDDEN, "null origin without Sec-Fetch-Site").await;
 }
+
+/// The demo district table written as an XLSX workbook: numbers as numbers, text as text.
+fn districts_xlsx() -> Vec<u8> {
+    let text = std::str::from_utf8(wardcast::demo::DISTRICTS_CSV).expect("utf-8 demo");
+    let mut book = rust_xlsxwriter::Workbook::new();
+    let sheet = book.add_worksheet();
+    for (r, line) in text.lines().enumerate() {
+        for (c, cell) in line.split(',').enumerate() {
+            let (row, col) = (u32::try_from(r).expect("row"), u16::try_from(c).expect("column"));
+            match cell.parse::<f64>() {
+                Ok(x) if r > 0 => sheet.write_number(row, col, x).map(|_| ()),
+                _ if cell.is_empty() => Ok(()),
+                _ => sheet.write_string(row, col, cell).map(|_| ()),
+            }
+            .expect("cell written");
+        }
+    }
+    book.save_to_buffer().expect("workbook")
+}
+
+#[tokio::test]
+async fn an_xlsx_upload_models_like_the_same_table_as_csv() {
+    let app = empty_app();
+    let mut fits = Vec::new();
+    for (file, bytes, name) in [
+        ("larkmoor_districts.xlsx", districts_xlsx(), "From a workbook"),
+        ("larkmoor_districts.csv", wardcast::demo::DISTRICTS_CSV.to_vec(), "From a text file"),
+    ] {
+        let created = check(
+            &app,
+            upload(
+                "/api/tables",
+                &[
+                    ("file", Some(file), &bytes),
+                    ("name", None, name.as_bytes()),
+                    ("key", None, b"district_code"),
+                ],
+            ),
+            StatusCode::CREATED,
+            file,
+        )
+        .await;
+        let table = json_of(created).await;
+        let id = table["id"].as_str().expect("table id").to_owned();
+        assert_eq!(table["rows"], 64, "{file}: every district is read");
+        assert_eq!(table["import"]["rows"], 64, "{file}: the import report counts every district");
+        let format = if file.ends_with(".xlsx") { "xlsx" } else { "csv" };
+        assert_eq!(table["import"]["source"]["format"], format, "{file} is read as {format}");
+        let derive = json!({"name": "assault_rate_per_10k",
+            "derivation": {"kind": "rate_per", "count": "assaults", "population": "residents", "per": 10000}});
+        check(&app, post_json(&format!("/api/tables/{id}/derive"), &derive), StatusCode::OK, "derive").await;
+        let spec = wardcast::web::demo::demo_spec();
+        let made = json_of(
+            check(
+                &app,
+                post_json(&format!("/api/tables/{id}/analyses"), &json!({"name": name, "spec": spec})),
+                StatusCode::CREATED,
+                "analysis",
+            )
+            .await,
+        )
+        .await;
+        let analysis = made["id"].as_str().expect("analysis id").to_owned();
+        fits.push(json_of(send(&app, get(&format!("/api/analyses/{analysis}/fit"))).await).await);
+    }
+    // The workbook and the text file hold the same table, so the fits agree.
+    assert_close(&fits[0], &fits[1], "fit from XLSX against fit from CSV");
+}
