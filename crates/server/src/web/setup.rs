@@ -268,7 +268,7 @@ pub async fn derive_analysis(
             e.author = extras.author;
         })
         .map_err(Refusal::Unfittable)?;
-    app.insert(built).map_err(Refusal::Unfittable)
+    app.insert_new(built).map_err(Refusal::Unfittable)
 }
 
 // ---- The set-up form ----

@@ -425,28 +425,54 @@ impl AppState {
     }
 
     /// An unused analysis id made from `name`: its slug (lowercase letters, digits and single
-    /// hyphens; `analysis` when nothing is left), then `-2`, `-3`… until one is free.
+    /// hyphens; `analysis` when nothing is left), then `-2`, `-3`… until one is free. The id is
+    /// a proposal: [`AppState::insert_new`] checks it again when the analysis is stored.
     pub fn fresh_id(&self, name: &str) -> Result<String> {
-        let mut slug = String::new();
-        for c in name.to_lowercase().chars() {
-            if c.is_ascii_lowercase() || c.is_ascii_digit() {
-                slug.push(c);
-            } else if !slug.ends_with('-') && !slug.is_empty() {
-                slug.push('-');
-            }
-        }
-        slug.truncate(48);
-        let base = slug.trim_end_matches('-');
-        let base = if base.is_empty() { "analysis" } else { base };
         let map = self.analyses.read().map_err(|_| poisoned())?;
-        if !map.contains_key(base) {
-            return Ok(base.to_owned());
-        }
-        (2u32..)
-            .map(|n| format!("{base}-{n}"))
-            .find(|id| !map.contains_key(id))
-            .ok_or_else(|| ServerError::Internal("no free analysis id".into()))
+        free_id(&map, &slug_of(name))
     }
+
+    /// Adds a new analysis without replacing any: when its id was taken meanwhile (two refits
+    /// named alike at the same moment), it gets the next free id made from the same slug. The
+    /// check and the insertion happen under one lock.
+    pub fn insert_new(&self, mut analysis: Analysis) -> Result<Arc<Analysis>> {
+        let mut map = self.analyses.write().map_err(|_| poisoned())?;
+        if map.contains_key(&analysis.id) {
+            let base = analysis.id.trim_end_matches(|c: char| c.is_ascii_digit()).trim_end_matches('-');
+            let base = if base.is_empty() { analysis.id.clone() } else { base.to_owned() };
+            analysis.id = free_id(&map, &base)?;
+        }
+        let analysis = Arc::new(analysis);
+        map.insert(analysis.id.clone(), analysis.clone());
+        Ok(analysis)
+    }
+}
+
+/// The slug an analysis id is made from: lowercase letters, digits and single hyphens, at most
+/// 48 characters; `analysis` when nothing is left.
+fn slug_of(name: &str) -> String {
+    let mut slug = String::new();
+    for c in name.to_lowercase().chars() {
+        if c.is_ascii_lowercase() || c.is_ascii_digit() {
+            slug.push(c);
+        } else if !slug.ends_with('-') && !slug.is_empty() {
+            slug.push('-');
+        }
+    }
+    slug.truncate(48);
+    let base = slug.trim_end_matches('-');
+    if base.is_empty() { "analysis".to_owned() } else { base.to_owned() }
+}
+
+/// `base` when no analysis has it, else the first free `base-2`, `base-3`…
+fn free_id(map: &BTreeMap<String, Arc<Analysis>>, base: &str) -> Result<String> {
+    if !map.contains_key(base) {
+        return Ok(base.to_owned());
+    }
+    (2u32..)
+        .map(|n| format!("{base}-{n}"))
+        .find(|id| !map.contains_key(id))
+        .ok_or_else(|| ServerError::Internal("no free analysis id".into()))
 }
 
 fn poisoned() -> ServerError {

@@ -460,7 +460,7 @@ async fn start_analysis(ctx: &Ctx, id: &str, name: &str, spec: ModelSpec) -> Res
         })
     })
     .await?;
-    ctx.app().insert(analysis)
+    ctx.app().insert_new(analysis)
 }
 
 // ---------------------------------------------------------------------------------------------

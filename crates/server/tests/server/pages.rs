@@ -263,3 +263,30 @@ async fn every_asset_in_the_folder_is_compiled_in_and_served() {
     let response = send(&app, get("/assets/../Cargo.toml")).await;
     assert_ne!(response.status(), StatusCode::OK, "no way out of the assets");
 }
+
+#[test]
+fn new_analyses_never_replace_one_another() {
+    // Two refits named alike can be built at the same moment with the same proposed id; the
+    // second stored takes the next free one instead of replacing the first.
+    let state = AppState::new();
+    let proposed = state.fresh_id("Larkmoor refit").expect("id");
+    assert_eq!(proposed, "larkmoor-refit");
+    let first =
+        state.insert_new(sample_analysis(&proposed, "first", "streetlight_outages", "LK-33")).expect("first");
+    let second = state
+        .insert_new(sample_analysis(&proposed, "second", "streetlight_outages", "LK-33"))
+        .expect("second");
+    let third =
+        state.insert_new(sample_analysis(&proposed, "third", "streetlight_outages", "LK-33")).expect("third");
+    assert_eq!(
+        (first.id(), second.id(), third.id()),
+        ("larkmoor-refit", "larkmoor-refit-2", "larkmoor-refit-3")
+    );
+    for (id, name) in
+        [("larkmoor-refit", "first"), ("larkmoor-refit-2", "second"), ("larkmoor-refit-3", "third")]
+    {
+        assert_eq!(state.get(id).expect("lock").expect("kept").name(), name);
+    }
+    assert_eq!(state.fresh_id("Larkmoor refit").expect("id"), "larkmoor-refit-4");
+    assert_eq!(state.fresh_id("  ??  ").expect("id"), "analysis");
+}
