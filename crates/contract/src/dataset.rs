@@ -570,7 +570,8 @@ pub struct SavedAnalysis {
     pub model_spec: crate::spec::ModelSpec,
     /// Cross-validation folds and seeds.
     pub cv: CvSettings,
-    /// Scenario settings (what-if values), as the scenario page writes them.
+    /// Scenario settings: the kept what-if scenarios' settings and the brief's candidate
+    /// predictors, read as [`crate::scenario::SavedScenarios`]; never results.
     #[serde(default)]
     pub scenario: serde_json::Value,
     /// Allocation settings (budget rules), as the allocation page writes them.

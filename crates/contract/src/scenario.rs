@@ -216,6 +216,54 @@ impl ScenarioDocument {
     }
 }
 
+impl ScenarioRequest {
+    /// The settings a scenario document was computed from: the one-area scenario's area and
+    /// the values that differ from the area's own (every value when no area was named), and
+    /// the all-areas scenario's shift. Computing the returned request on the same analysis
+    /// gives the same document again.
+    pub fn from_document(doc: &ScenarioDocument) -> ScenarioRequest {
+        let mut request = ScenarioRequest::default();
+        if let Some(one) = &doc.one_area {
+            request.area = one.area.clone();
+            request.values = one
+                .inputs
+                .iter()
+                .filter(|i| i.changed || i.area_value.is_none())
+                .map(|i| (i.column.clone(), i.value.clone()))
+                .collect();
+        }
+        if let Some(all) = &doc.all_areas {
+            request.shift = Some(all.shift.clone());
+        }
+        request
+    }
+}
+
+/// The what-if settings a saved analysis keeps in its `scenario` field. Only settings are
+/// saved, never results: the scenarios are computed again from them whenever the analysis is
+/// restored or briefed, so they always match the model as fitted then.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+pub struct SavedScenarios {
+    /// Extra candidate predictors searched when the brief chooses the model, by column.
+    #[serde(default)]
+    pub candidates: Vec<String>,
+    /// The settings of each scenario kept for the brief, oldest first: a one-area scenario has
+    /// `area` and the changed `values`, an all-areas scenario has `shift`.
+    #[serde(default)]
+    pub kept: Vec<ScenarioRequest>,
+}
+
+impl SavedScenarios {
+    /// Reads the `scenario` field of a saved analysis; null (an analysis saved before any
+    /// scenario was kept) reads as no settings.
+    pub fn from_value(value: &serde_json::Value) -> Result<SavedScenarios, serde_json::Error> {
+        if value.is_null() {
+            return Ok(SavedScenarios::default());
+        }
+        serde_json::from_value(value.clone())
+    }
+}
+
 /// What an allocation scenario is made from. Only `total` and `basis` are required; the rest
 /// take the defaults the page shows, and the document records the values used.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]

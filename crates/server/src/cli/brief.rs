@@ -13,6 +13,7 @@ use std::process::ExitCode;
 use std::sync::Arc;
 
 use wardcast_contract::dataset::SavedAnalysis;
+use wardcast_contract::scenario::{SavedScenarios, ScenarioRequest};
 use wardcast_contract::spec::ModelSpec;
 use wardcast_engine::allocation::BudgetRow;
 use wardcast_report::brief::{ChoiceCv, DatasetChecksum, model_choice};
@@ -79,6 +80,8 @@ struct Plan {
     author: Option<String>,
     cv: ChoiceCv,
     candidates: Vec<String>,
+    /// The settings of the what-if scenarios kept for the brief, computed again here.
+    kept: Vec<ScenarioRequest>,
     saved_allocation: SavedAllocation,
     demo: bool,
 }
@@ -139,12 +142,15 @@ pub fn run(args: &BriefArgs) -> Result<ExitCode, String> {
         }
         None => None,
     };
+    let scenarios = crate::web::whatif::recompute_kept(&analysis, &plan.kept)
+        .map_err(|e| format!("a kept scenario cannot be computed again: {e}"))?;
     analysis
         .update_extras(|e| {
             e.model_choice = choice;
             e.allocation = allocation_doc;
             e.question = Some(question);
             e.author = Some(author);
+            e.scenarios = scenarios;
         })
         .map_err(|e| e.to_string())?;
 
@@ -205,6 +211,7 @@ fn from_flags(args: &BriefArgs) -> Result<Plan, String> {
         author: None,
         cv,
         candidates: Vec::new(),
+        kept: Vec::new(),
         saved_allocation: SavedAllocation::default(),
         demo,
     })
@@ -274,12 +281,8 @@ fn from_saved(args: &BriefArgs, reference: &str) -> Result<Plan, String> {
         repeats: if saved.cv.seeds.len() > 1 { saved.cv.seeds.len() } else { default.repeats },
         seed: args.seed.or(saved.cv.seeds.first().copied()).unwrap_or(default.seed),
     };
-    let candidates = saved
-        .scenario
-        .get("candidates")
-        .and_then(|c| c.as_array())
-        .map(|a| a.iter().filter_map(|v| v.as_str().map(str::to_owned)).collect())
-        .unwrap_or_default();
+    let scenarios = SavedScenarios::from_value(&saved.scenario)
+        .map_err(|e| format!("the saved scenario settings cannot be read: {e}"))?;
     Ok(Plan {
         source,
         spec: saved.model_spec.clone(),
@@ -287,7 +290,8 @@ fn from_saved(args: &BriefArgs, reference: &str) -> Result<Plan, String> {
         question: Some(saved.question.clone()).filter(|q| !q.trim().is_empty()),
         author: Some(saved.author.clone()).filter(|a| !a.trim().is_empty()),
         cv,
-        candidates,
+        candidates: scenarios.candidates,
+        kept: scenarios.kept,
         saved_allocation: SavedAllocation::from_value(&saved.allocation)?,
         demo: false,
     })

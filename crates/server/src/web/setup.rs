@@ -27,6 +27,7 @@ use axum::{Router, extract::Request};
 use serde::{Deserialize, Serialize};
 use wardcast_contract::dataset::{ColumnMeta, ColumnRole, CvSettings, SavedAnalysis};
 use wardcast_contract::fit::FitDocument;
+use wardcast_contract::scenario::SavedScenarios;
 use wardcast_contract::spec::{ExclusionSpec, ModelSpec, PredictorSpec, TransformSpec};
 use wardcast_engine::{ColumnData, Table};
 use wardcast_report::brief::ChoiceCv;
@@ -923,6 +924,11 @@ async fn save(ctx: &Ctx, analysis: &Arc<Analysis>, request: SaveRequest) -> Resu
         })?,
         None => serde_json::Value::Null,
     };
+    // Only the kept scenarios' settings are saved; restoring and briefing compute them again.
+    let scenarios =
+        SavedScenarios { candidates: Vec::new(), kept: super::whatif::kept_settings(&extras.scenarios) };
+    let scenario = serde_json::to_value(&scenarios)
+        .map_err(|e| ServerError::Internal(format!("the scenario settings could not be written: {e}")))?;
     let document = SavedAnalysis {
         schema_version: wardcast_contract::SCHEMA_VERSION.to_owned(),
         id: analysis.id().to_owned(),
@@ -932,7 +938,7 @@ async fn save(ctx: &Ctx, analysis: &Arc<Analysis>, request: SaveRequest) -> Resu
         author: author.clone(),
         model_spec: analysis.spec().clone(),
         cv: cv_settings(analysis)?,
-        scenario: serde_json::Value::Null,
+        scenario,
         allocation,
         created_unix: 0,
         updated_unix: 0,
@@ -1042,9 +1048,25 @@ pub fn restore_saved(state: &AppState, known: &[(Arc<Source>, Glossary)]) -> Res
         });
         match built {
             Ok(analysis) => {
+                // The kept what-if scenarios are computed again from their saved settings; an
+                // analysis whose settings no longer compute is restored without them.
+                let scenarios =
+                    match SavedScenarios::from_value(&saved.scenario).map_err(|e| e.to_string()).and_then(
+                        |s| super::whatif::recompute_kept(&analysis, &s.kept).map_err(|e| e.to_string()),
+                    ) {
+                        Ok(docs) => docs,
+                        Err(e) => {
+                            skipped.push(format!(
+                            "the kept scenarios of the saved analysis {:?} could not be computed again ({e})",
+                            saved.id
+                        ));
+                            Vec::new()
+                        }
+                    };
                 analysis.update_extras(|e| {
                     e.question = Some(saved.question.clone()).filter(|q| !q.is_empty());
                     e.author = Some(saved.author.clone()).filter(|a| !a.is_empty());
+                    e.scenarios = scenarios;
                 })?;
                 state.insert(analysis)?;
             }

@@ -1231,6 +1231,19 @@ fn kept_row(index: usize, v: BriefScenario) -> KeptRow {
     }
 }
 
+/// The settings of every kept scenario, oldest first, as a saved analysis keeps them.
+pub fn kept_settings(kept: &[ScenarioDocument]) -> Vec<ScenarioRequest> {
+    kept.iter().map(ScenarioRequest::from_document).collect()
+}
+
+/// Computes kept scenarios again from their saved settings, with the same computation the
+/// page uses, keeping the newest [`KEPT_SCENARIOS_MAX`]. Blocking: it predicts for every area
+/// of an all-areas scenario.
+pub fn recompute_kept(analysis: &Analysis, kept: &[ScenarioRequest]) -> Result<Vec<ScenarioDocument>> {
+    let skip = kept.len().saturating_sub(KEPT_SCENARIOS_MAX);
+    kept.iter().skip(skip).map(|request| scenario::compute(analysis, request)).collect()
+}
+
 /// Computes a scenario on the blocking pool and keeps it on the analysis for the brief, dropping
 /// the oldest past [`KEPT_SCENARIOS_MAX`]. Returns the kept list.
 async fn keep(analysis: std::sync::Arc<Analysis>, request: ScenarioRequest) -> Result<Vec<ScenarioDocument>> {

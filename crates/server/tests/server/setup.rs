@@ -683,3 +683,98 @@ async fn a_same_origin_form_post_with_a_null_origin_is_accepted() {
         check(&app, request, expected, &format!("null origin, Sec-Fetch-Site {site:?}")).await;
     }
 }
+
+/// The `scenarios` rows of a brief's CSV tables, as written.
+fn scenario_rows(csv: &str) -> Vec<String> {
+    csv.lines().filter(|l| l.starts_with("scenarios,")).map(str::to_owned).collect()
+}
+
+#[tokio::test]
+async fn kept_scenarios_are_saved_as_settings_and_computed_again_by_restore_and_the_command() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let open = || wardcast_store::Store::open(dir.path()).expect("the store opens").0;
+    let state = demo_state_in_store(open()).expect("the demo loads into the store");
+    let app = router(state.clone(), SecurityConfig::local(PORT));
+
+    // Keep a one-area and an all-areas scenario through the page's forms, then save.
+    for (fields, what) in [
+        (&[("part", "one"), ("area", "LK-20"), ("x.unemployment_pct", "9.5")][..], "keep one area"),
+        (
+            &[
+                ("part", "all"),
+                ("shift_column", "unemployment_pct"),
+                ("shift_op", "multiply"),
+                ("shift_amount", "1.1"),
+            ][..],
+            "keep all areas",
+        ),
+    ] {
+        check(&app, post_form("/analyses/larkmoor/what-if/keep", fields), StatusCode::SEE_OTHER, what).await;
+    }
+    let kept = state.get(DEMO_ID).expect("lock").expect("demo").extras().expect("extras").scenarios;
+    assert_eq!(kept.len(), 2);
+    let save = post_form(
+        "/analyses/larkmoor/save",
+        &[
+            ("title", "Demo with scenarios"),
+            ("question", "Where should prevention money go?"),
+            ("author", "A. Analyst"),
+        ],
+    );
+    check(&app, save, StatusCode::SEE_OTHER, "save").await;
+
+    // (a) The saved document holds the settings only: exactly these, and no result numbers.
+    let saved = open().analysis(DEMO_ID).expect("saved").clone();
+    assert_eq!(
+        saved.scenario,
+        serde_json::json!({
+            "candidates": [],
+            "kept": [
+                {"area": "LK-20", "values": {"unemployment_pct": 9.5}, "shift": null},
+                {"area": null, "values": {}, "shift": {"column": "unemployment_pct", "operation": "multiply", "amount": 1.1}},
+            ],
+        })
+    );
+    let written = saved.scenario.to_string();
+    for result in ["prediction", "interval", "leverage", "fit"] {
+        assert!(!written.contains(result), "the saved settings carry no {result}");
+    }
+
+    // The web brief's scenario rows: one per kept scenario.
+    let web_csv =
+        text(check(&app, get("/analyses/larkmoor/tables.csv"), StatusCode::OK, "web tables").await).await;
+    let web_rows = scenario_rows(&web_csv);
+    assert_eq!(web_rows.len(), 2, "one row per kept scenario");
+    assert!(web_rows[0].contains("LK-20"), "the one-area row names its area: {}", web_rows[0]);
+    drop(app);
+    drop(state);
+
+    // (b) The command briefs the saved analysis with the same scenario rows.
+    let out = dir.path().join("x.csv");
+    let output = std::process::Command::new(env!("CARGO_BIN_EXE_wardcast"))
+        .args(["brief", "--analysis", DEMO_ID, "--data-dir"])
+        .arg(dir.path())
+        .arg("--out")
+        .arg(&out)
+        .output()
+        .expect("the binary runs");
+    assert!(output.status.success(), "brief failed: {}", String::from_utf8_lossy(&output.stderr));
+    let cli_csv = std::fs::read_to_string(&out).expect("the CSV is written");
+    assert_eq!(scenario_rows(&cli_csv), web_rows);
+
+    // (c) A restart computes the kept scenarios again, equal to the ones kept before.
+    let restarted = demo_state_in_store(open()).expect("restart");
+    let restored =
+        restarted.get(DEMO_ID).expect("lock").expect("restored").extras().expect("extras").scenarios;
+    assert_eq!(restored, kept);
+    let app = router(restarted, SecurityConfig::local(PORT));
+    let kept_json: serde_json::Value = serde_json::from_str(
+        &text(check(&app, get("/api/analyses/larkmoor/what-if/kept"), StatusCode::OK, "kept").await).await,
+    )
+    .expect("json");
+    assert_eq!(kept_json.as_array().map(Vec::len), Some(2));
+    let csv =
+        text(check(&app, get("/analyses/larkmoor/tables.csv"), StatusCode::OK, "restored tables").await)
+            .await;
+    assert_eq!(scenario_rows(&csv), web_rows);
+}
