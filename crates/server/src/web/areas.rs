@@ -311,7 +311,7 @@ impl AreasPage {
             flagged = doc.flagged,
             n = doc.n,
             expected = fmt_num(doc.expected_by_chance),
-            singular = singular(&areas),
+            singular = glossary.area(),
         );
         let t_critical = figure_of(doc.t_critical);
         let method = format!(
@@ -320,7 +320,7 @@ impl AreasPage {
              t(0.975, {df}) × s₍ᵢ₎/√(1 − hᵢ), where s₍ᵢ₎ is the residual standard deviation without the {singular} and \
              t(0.975, {df}) = {t}. The observed value lies outside exactly when the studentized deleted residual is \
              beyond ±{t}.",
-            singular = singular(&areas),
+            singular = glossary.area(),
             df = doc.df,
             t = t_critical.text,
         );
@@ -330,7 +330,7 @@ impl AreasPage {
                 "The model is weighted, so each interval uses its {singular}'s weight wᵢ: the half-width is \
                  t × s₍ᵢ₎/√(wᵢ(1 − hᵢ)), the prediction interval of a new {singular} with that weight; the flag rule \
                  |tᵢ| > t holds unchanged.",
-                singular = singular(&areas)
+                singular = glossary.area()
             ));
         }
         if doc.response != analysis.spec().response {
@@ -374,7 +374,7 @@ impl AreasPage {
                     },
                 })
                 .collect(),
-            interval_name: format!("95% interval without the {}", singular(&areas)),
+            interval_name: format!("95% interval without the {}", glossary.area()),
             flagged_meaning: "Outside its interval".into(),
             summary: format!("{} of {} lie outside their interval.", doc.flagged, doc.n),
         };
@@ -464,10 +464,6 @@ impl AreasPage {
 }
 
 /// A rough singular of the plural noun for areas ("districts" → "district").
-fn singular(areas: &str) -> String {
-    areas.strip_suffix('s').unwrap_or(areas).to_owned()
-}
-
 /// `GET /analyses/{id}/areas`: the page.
 pub async fn page(
     State(ctx): State<Ctx>,

@@ -604,11 +604,6 @@ fn drop_rows(doc: &DropOneDocument) -> Vec<DropRow> {
         .collect()
 }
 
-/// The last value of a query or form field.
-fn field<'a>(pairs: &'a [(String, String)], name: &str) -> Option<&'a str> {
-    pairs.iter().rev().find(|(k, _)| k == name).map(|(_, v)| v.as_str())
-}
-
 fn default_drop_cv() -> DropCv {
     DropCv { folds: compute::DEFAULT_FOLDS, repeats: compute::DEFAULT_REPEATS, seed: compute::DEFAULT_SEED }
 }
@@ -640,7 +635,7 @@ async fn page(
     let mut result_message = None;
     let mut job_link = None;
     let mut within: Vec<String> = Vec::new();
-    if let Some(job_id) = field(&pairs, "job").filter(|j| !j.is_empty()) {
+    if let Some(job_id) = forms::last(&pairs, "job").filter(|j| !j.is_empty()) {
         let (job, outcome) = job_result(&ctx, &analysis, job_id)?;
         job_link = Some(format!("/jobs/{}", job.id()));
         match outcome {
@@ -651,9 +646,9 @@ async fn page(
             Err(message) => result_message = Some(message),
         }
     }
-    let compare_a = field(&pairs, "a").unwrap_or_default().to_owned();
-    let compare_b = field(&pairs, "b").unwrap_or_default().to_owned();
-    let wants_compare = field(&pairs, "a").is_some() || field(&pairs, "b").is_some();
+    let compare_a = forms::last(&pairs, "a").unwrap_or_default().to_owned();
+    let compare_b = forms::last(&pairs, "b").unwrap_or_default().to_owned();
+    let wants_compare = forms::last(&pairs, "a").is_some() || forms::last(&pairs, "b").is_some();
     let a2 = analysis.clone();
     let (ca, cb) = (compute::column_list(&compare_a), compute::column_list(&compare_b));
     let (compared, dropped) = blocking(move || {
@@ -728,7 +723,7 @@ fn parse_number<T: std::str::FromStr>(
     what: &str,
     default: T,
 ) -> Result<T> {
-    match field(pairs, name).map(str::trim).filter(|v| !v.is_empty()) {
+    match forms::last(pairs, name).map(str::trim).filter(|v| !v.is_empty()) {
         None => Ok(default),
         Some(v) => v
             .parse()
@@ -740,7 +735,7 @@ fn parse_number<T: std::str::FromStr>(
 fn request_from_form(pairs: &[(String, String)]) -> Result<SearchRequest> {
     let list =
         |name: &str| pairs.iter().filter(|(k, _)| k == name).map(|(_, v)| v.clone()).collect::<Vec<_>>();
-    let max_size = match field(pairs, "max_size").map(str::trim).filter(|v| !v.is_empty()) {
+    let max_size = match forms::last(pairs, "max_size").map(str::trim).filter(|v| !v.is_empty()) {
         None => None,
         Some(v) => Some(v.parse().map_err(|_| {
             ServerError::BadRequest(format!("The largest model size must be a whole number, not {v:?}."))
@@ -754,7 +749,7 @@ fn request_from_form(pairs: &[(String, String)]) -> Result<SearchRequest> {
         folds: parse_number(pairs, "folds", "The number of folds", compute::DEFAULT_FOLDS)?,
         repeats: parse_number(pairs, "repeats", "The number of repeats", compute::DEFAULT_REPEATS)?,
         seed: parse_number(pairs, "seed", "The seed", compute::DEFAULT_SEED)?,
-        group: field(pairs, "group").map(str::to_owned).filter(|g| !g.trim().is_empty()),
+        group: forms::last(pairs, "group").map(str::to_owned).filter(|g| !g.trim().is_empty()),
     })
 }
 
@@ -840,13 +835,13 @@ async fn api_compare(
     let Query(pairs) =
         query.map_err(|_| ServerError::BadRequest("The address has a malformed query.".into()))?;
     let analysis = ctx.analysis(&id)?;
-    let (Some(a), Some(b)) = (field(&pairs, "a"), field(&pairs, "b")) else {
+    let (Some(a), Some(b)) = (forms::last(&pairs, "a"), forms::last(&pairs, "b")) else {
         return Err(ServerError::BadRequest(
             "Name both models: a=… and b=…, each a comma-separated list of columns (empty for no indicators).".into(),
         )
         .into());
     };
-    let within = match field(&pairs, "job").filter(|j| !j.is_empty()) {
+    let within = match forms::last(&pairs, "job").filter(|j| !j.is_empty()) {
         Some(job_id) => match job_result(&ctx, &analysis, job_id)?.1 {
             Ok(r) => r.candidate_columns.clone(),
             Err(message) => return Err(ServerError::BadRequest(message).into()),

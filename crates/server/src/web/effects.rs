@@ -471,7 +471,7 @@ fn effect_chart(
             },
         ),
         Some(_) if log_response => Axis::new("Difference in the typical value", "%"),
-        Some(t) => Axis::new(format!("Difference in {}", transform_name(t)), ""),
+        Some(t) => Axis::new(format!("Difference in {}", super::words::transform_phrase(t)), ""),
     };
     let plot = EffectPlot {
         title: format!("Differences in {}", in_sentence(&response.label)),
@@ -492,16 +492,6 @@ fn effect_chart(
             tracing::warn!(error = %e, "the effect chart could not be drawn");
             None
         }
-    }
-}
-
-fn transform_name(t: TransformSpec) -> &'static str {
-    match t {
-        TransformSpec::Log => "the logarithm",
-        TransformSpec::Reciprocal => "the reciprocal",
-        TransformSpec::Sqrt => "the square root",
-        TransformSpec::Square => "the square",
-        TransformSpec::Power { .. } => "a power",
     }
 }
 

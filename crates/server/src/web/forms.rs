@@ -61,6 +61,12 @@ pub(crate) fn first<'a>(fields: &'a [(String, String)], name: &str) -> Option<&'
     fields.iter().find(|(k, _)| k == name).map(|(_, v)| v.as_str())
 }
 
+/// The value of the last field called `name`, if there is one (a later field overrides an
+/// earlier one, as when a hidden default precedes a visible input).
+pub(crate) fn last<'a>(fields: &'a [(String, String)], name: &str) -> Option<&'a str> {
+    fields.iter().rev().find(|(k, _)| k == name).map(|(_, v)| v.as_str())
+}
+
 /// Decodes a whole form body; `None` when an escape is malformed or the text is not UTF-8.
 fn decode(body: &[u8]) -> Option<Vec<(String, String)>> {
     let text = std::str::from_utf8(body).ok()?;

@@ -117,6 +117,11 @@ impl Glossary {
         &self.areas
     }
 
+    /// The singular noun for one area ("district" for "districts").
+    pub fn area(&self) -> String {
+        self.areas.strip_suffix('s').unwrap_or(&self.areas).to_owned()
+    }
+
     /// A column's description; unknown columns are described by their name.
     pub fn column(&self, name: &str) -> ColumnInfo {
         self.columns.get(name).cloned().unwrap_or_else(|| ColumnInfo::new(name, None))
@@ -285,6 +290,11 @@ impl Analysis {
     /// The source table and its description.
     pub fn source(&self) -> &Arc<Source> {
         &self.source
+    }
+
+    /// The names of the table's numeric columns, in table order.
+    pub fn numeric_columns(&self) -> Vec<&str> {
+        self.source.table.columns().iter().filter(|c| c.data.is_numeric()).map(|c| c.name.as_str()).collect()
     }
 
     /// The engine table the model was fitted on.

@@ -73,15 +73,10 @@ fn chosen_from_query(pairs: &[(String, String)]) -> Result<Vec<String>> {
     Ok(chosen)
 }
 
-/// The numeric columns of the table, in table order.
-fn numeric_columns(analysis: &Analysis) -> Vec<&str> {
-    analysis.table().columns().iter().filter(|c| c.data.is_numeric()).map(|c| c.name.as_str()).collect()
-}
-
 /// The default choice: the response and the model's numeric predictors (and weights), at most
 /// [`MATRIX_MAX_MEASURES`].
 fn default_choice(analysis: &Analysis) -> Vec<String> {
-    let numeric = numeric_columns(analysis);
+    let numeric = analysis.numeric_columns();
     let spec = analysis.spec();
     let mut out: Vec<String> = Vec::new();
     let wanted =
@@ -99,7 +94,7 @@ fn check_choice(analysis: &Analysis, chosen: Vec<String>) -> Result<Vec<String>>
     if chosen.is_empty() {
         return Ok(default_choice(analysis));
     }
-    let numeric = numeric_columns(analysis);
+    let numeric = analysis.numeric_columns();
     for c in &chosen {
         match analysis.table().column(c) {
             None => {
@@ -274,7 +269,8 @@ impl SurveyPage {
         let glossary = analysis.glossary();
         let areas = glossary.areas().to_owned();
         let cards = doc.columns.iter().map(|c| card(analysis, c, &areas)).collect();
-        let choices = numeric_columns(analysis)
+        let choices = analysis
+            .numeric_columns()
             .into_iter()
             .map(|name| Choice {
                 name: name.to_owned(),

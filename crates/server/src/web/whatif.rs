@@ -704,7 +704,7 @@ fn shift_description(analysis: &Analysis, shift: &ShiftDoc) -> String {
             };
             format!(
                 "Every {} with {} {} by {}{unit}",
-                singular(analysis.glossary().areas()),
+                analysis.glossary().area(),
                 info.label.to_lowercase(),
                 if shift.amount < 0.0 { "lower" } else { "higher" },
                 fmt_plain(size),
@@ -712,15 +712,11 @@ fn shift_description(analysis: &Analysis, shift: &ShiftDoc) -> String {
         }
         ShiftOperation::Multiply => format!(
             "Every {} with {} multiplied by {}",
-            singular(analysis.glossary().areas()),
+            analysis.glossary().area(),
             info.label.to_lowercase(),
             fmt_plain(shift.amount)
         ),
     }
-}
-
-fn singular(plural: &str) -> String {
-    plural.strip_suffix('s').unwrap_or(plural).to_owned()
 }
 
 fn choices(values: &[String], selected: &str, labels: impl Fn(&str) -> String) -> Vec<Choice> {
@@ -729,7 +725,7 @@ fn choices(values: &[String], selected: &str, labels: impl Fn(&str) -> String) -
 
 fn allocation_form(analysis: &Analysis, latest: Option<&AllocationDocument>) -> AllocationForm {
     let d = allocation::defaults(analysis);
-    let numeric = allocation::numeric_columns(analysis);
+    let numeric: Vec<String> = analysis.numeric_columns().into_iter().map(str::to_owned).collect();
     let s = latest.map(|doc| &doc.settings);
     let basis = s.map_or(d.basis.clone(), |s| s.basis.clone());
     let weights = s.and_then(|s| s.blend_weights).unwrap_or(BlendWeightsDoc {
@@ -1155,7 +1151,7 @@ pub fn brief_scenarios(analysis: &Analysis, doc: &ScenarioDocument) -> Vec<Brief
         let description = match (&one.area, changed.is_empty()) {
             (Some(area), true) => format!("{area} as it is"),
             (Some(area), false) => format!("{area} with {}", changed.join(", ")),
-            (None, _) => format!("A {} with {}", singular(areas), changed.join(", ")),
+            (None, _) => format!("A {} with {}", glossary.area(), changed.join(", ")),
         };
         let x = &one.extrapolation;
         let mut words = Vec::new();
@@ -1174,7 +1170,7 @@ pub fn brief_scenarios(analysis: &Analysis, doc: &ScenarioDocument) -> Vec<Brief
         let p = &one.prediction;
         out.push(BriefScenario {
             description,
-            predicts: format!("a {} with these values", singular(areas)),
+            predicts: format!("a {} with these values", glossary.area()),
             predicted: p.fit,
             mean_low: p.mean_interval.low,
             mean_high: p.mean_interval.high,

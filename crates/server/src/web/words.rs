@@ -454,3 +454,14 @@ pub fn comparison_sentence(kind: &TermKind, estimate: Estimate, w: &Wording<'_>)
         }
     }
 }
+
+/// A transform in words, as in "the difference in the natural logarithm of …".
+pub fn transform_phrase(t: TransformSpec) -> String {
+    match t {
+        TransformSpec::Log | TransformSpec::Power { lambda: 0.0 } => "the natural logarithm".into(),
+        TransformSpec::Reciprocal => "the reciprocal".into(),
+        TransformSpec::Sqrt => "the square root".into(),
+        TransformSpec::Square => "the square".into(),
+        TransformSpec::Power { lambda } => format!("the power {lambda}"),
+    }
+}

@@ -309,3 +309,22 @@ fn a_glossary_reads_labels_and_units_from_column_metadata() {
     assert_eq!(g.column("district_code"), ColumnInfo::new("district_code", None));
     assert_eq!(g.column("not_described"), ColumnInfo::new("not_described", None));
 }
+
+#[test]
+fn transforms_and_area_nouns_in_words() {
+    use wardcast::web::words::transform_phrase;
+    use wardcast_contract::spec::TransformSpec;
+    for (t, words) in [
+        (TransformSpec::Log, "the natural logarithm"),
+        (TransformSpec::Power { lambda: 0.0 }, "the natural logarithm"),
+        (TransformSpec::Sqrt, "the square root"),
+        (TransformSpec::Reciprocal, "the reciprocal"),
+        (TransformSpec::Square, "the square"),
+        (TransformSpec::Power { lambda: 0.5 }, "the power 0.5"),
+    ] {
+        assert_eq!(transform_phrase(t), words);
+    }
+    assert_eq!(wardcast::web::Glossary::new("districts").area(), "district");
+    assert_eq!(wardcast::web::Glossary::new("tracts").area(), "tract");
+    assert_eq!(wardcast::web::Glossary::default().area(), "area");
+}

@@ -191,14 +191,9 @@ fn validate(
     Ok((TransformSettings { folds, seed, lambda_low, lambda_high, top }, opts))
 }
 
-/// The last value of a form or query field.
-fn field<'a>(pairs: &'a [(String, String)], name: &str) -> Option<&'a str> {
-    pairs.iter().rev().find(|(k, _)| k == name).map(|(_, v)| v.as_str())
-}
-
 /// A form field as a number, `None` when left empty.
 fn number<T: std::str::FromStr>(pairs: &[(String, String)], name: &str, what: &str) -> Result<Option<T>> {
-    match field(pairs, name).map(str::trim).filter(|v| !v.is_empty()) {
+    match forms::last(pairs, name).map(str::trim).filter(|v| !v.is_empty()) {
         None => Ok(None),
         Some(v) => v.parse().map(Some).map_err(|_| bad(format!("{what} must be a number, not {v:?}."))),
     }
@@ -359,7 +354,7 @@ pub(super) async fn page(
 ) -> Result<Response> {
     let Query(pairs) = query.map_err(|_| bad("The address has a malformed query.".into()))?;
     let analysis = ctx.analysis(&id)?;
-    let Some(job_id) = field(&pairs, "job").filter(|j| !j.is_empty()) else {
+    let Some(job_id) = forms::last(&pairs, "job").filter(|j| !j.is_empty()) else {
         return Ok(crate::web::see_other_to(&format!("/analyses/{}/soundness#search-again", analysis.id())));
     };
     let (job, outcome) = job_result(&ctx, &analysis, job_id)?;

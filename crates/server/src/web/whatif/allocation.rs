@@ -44,7 +44,11 @@ pub struct Settings {
 pub fn defaults(analysis: &Analysis) -> AllocationRequest {
     let residents = column_for(analysis, ColumnRole::Population, &["residents", "population"]);
     let incidents = column_for(analysis, ColumnRole::Count, &["assaults", "incidents"]);
-    let budget = numeric_columns(analysis).into_iter().find(|c| c.to_lowercase().contains("budget"));
+    let budget = analysis
+        .numeric_columns()
+        .into_iter()
+        .find(|c| c.to_lowercase().contains("budget"))
+        .map(str::to_owned);
     let total = budget
         .as_deref()
         .map(|b| budget_rows(analysis, b).0.iter().map(|r| r.amount).sum::<u64>())
@@ -66,24 +70,13 @@ pub fn defaults(analysis: &Analysis) -> AllocationRequest {
     }
 }
 
-/// The numeric columns of the analysis' table, in table order.
-pub fn numeric_columns(analysis: &Analysis) -> Vec<String> {
-    analysis
-        .table()
-        .columns()
-        .iter()
-        .filter(|c| matches!(c.data, ColumnData::Numeric(_)))
-        .map(|c| c.name.clone())
-        .collect()
-}
-
 fn column_for(analysis: &Analysis, role: ColumnRole, names: &[&str]) -> Option<String> {
-    let numeric = numeric_columns(analysis);
+    let numeric = analysis.numeric_columns();
     analysis
         .source()
         .columns
         .iter()
-        .find(|m| m.role == role && numeric.contains(&m.column))
+        .find(|m| m.role == role && numeric.contains(&m.column.as_str()))
         .map(|m| m.column.clone())
         .or_else(|| names.iter().find(|n| numeric.iter().any(|c| c == *n)).map(|n| (*n).to_owned()))
 }

@@ -14,7 +14,6 @@ use wardcast_contract::scenario::{
     AllAreasDoc, AverageDoc, DifferenceDoc, ExtrapolationDoc, InputValueDoc, OneAreaDoc, ScenarioDocument,
     ScenarioRequest, ShiftDoc, ShiftOperation, ValueDoc,
 };
-use wardcast_contract::spec::TransformSpec;
 use wardcast_engine::{ColumnData, Design, Fit, Matrix, Prediction, PredictorValue, Table, TermKind};
 
 use crate::error::{Result, ServerError};
@@ -221,21 +220,10 @@ pub fn response_scale(analysis: &Analysis) -> String {
         Some(t) => format!(
             "{} of {}: the model was fitted on that scale and the engine gives its intervals on it, so the \
              predictions are not converted back to {}",
-            transform_name(t),
+            crate::web::words::transform_phrase(t),
             info.label,
             unit.unwrap_or("the original units")
         ),
-    }
-}
-
-fn transform_name(t: TransformSpec) -> String {
-    match t {
-        TransformSpec::Log => "the natural logarithm".into(),
-        TransformSpec::Reciprocal => "the reciprocal".into(),
-        TransformSpec::Sqrt => "the square root".into(),
-        TransformSpec::Square => "the square".into(),
-        TransformSpec::Power { lambda: 0.0 } => "the natural logarithm".into(),
-        TransformSpec::Power { lambda } => format!("the power {lambda}"),
     }
 }
 
